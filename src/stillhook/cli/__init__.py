@@ -1,0 +1,72 @@
+"""Command-line entry point: ``stillhook COMMAND ...``.
+
+The CLI is thin: each sub-command lives in its own module ``stillhook.cli.<name>``
+with ``HELP`` (one line), ``add_arguments(parser)`` and ``run(args) -> int``. Command
+modules import only argparse-level things at the top; the numerical work (and heavy
+imports such as scipy, python-control, matplotlib) happens inside ``run``.
+
+Errors raised as :class:`stillhook.errors.StillhookError` become one line on stderr
+and exit status 2, with no traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from stillhook import __version__
+from stillhook.errors import StillhookError
+
+#: Sub-commands in the order ``--help`` lists them; each is a module of this package.
+COMMANDS = ("modes", "simulate", "shaper", "notch", "compare", "sweep", "emit", "report", "demo")
+
+
+def _available_commands() -> list[tuple[str, object]]:
+    found = []
+    for name in COMMANDS:
+        try:
+            module = importlib.import_module(f"stillhook.cli.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"stillhook.cli.{name}":
+                continue  # command not built yet
+            raise
+        found.append((name, module))
+    return found
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """Return the top-level parser with every available sub-command."""
+    parser = argparse.ArgumentParser(
+        prog="stillhook",
+        description="Design and verify anti-sway command shapers and notch filters for a "
+        "two-mode (hook and payload) crane load, and emit fixed-point C for the drive.",
+    )
+    parser.add_argument("--version", action="version", version=f"stillhook {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+    for name, module in _available_commands():
+        p = sub.add_parser(name, help=module.HELP, description=module.HELP)
+        module.add_arguments(p)
+        p.set_defaults(_run=module.run)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the CLI; return the process exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args._run(args) or 0)
+    except StillhookError as exc:
+        print(f"stillhook: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("stillhook: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 1
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,304 @@
+"""Project file (TOML): the rig's envelope, the drive, and optional move, design and firmware choices.
+
+Only ``[rig]`` and ``[drive]`` are required; every other section and key has a default.
+Validation is declarative: :data:`SCHEMA` lists each section's keys with their kind, default
+and allowed range, and every error names the key, the value and what is allowed.
+
+Minimal file::
+
+    [rig]
+    hook_mass_kg = 180.0
+    rigging_length_m = 2.4
+    rope_length_m = [2.0, 8.0]      # one number, or [min, max] of the hoist range
+    payload_mass_kg = [40.0, 900.0] # one number, or [min, max]
+
+    [drive]
+    cycle_s = 0.004
+    max_speed_m_s = 0.6
+    max_accel_m_s2 = 0.3
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import tomllib
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from stillhook.envelope import Envelope
+from stillhook.errors import ConfigError, InputFileError, StillhookError
+
+DEMO_PROJECT_NAME = "demo_project.toml"
+
+
+@dataclass(frozen=True)
+class Key:
+    """One key of the schema.
+
+    kind: "number", "range" (number or [min, max]), "int", "bool", "choice", "identifier".
+    """
+
+    kind: str
+    default: Any = None
+    required: bool = False
+    minimum: float | None = None
+    maximum: float | None = None
+    min_inclusive: bool = True
+    max_inclusive: bool = True
+    choices: tuple[str, ...] = ()
+
+    def allowed(self) -> str:
+        if self.kind == "bool":
+            return "true or false"
+        if self.kind == "choice":
+            return "one of " + ", ".join(repr(c) for c in self.choices)
+        if self.kind == "identifier":
+            return "a C identifier of letters, digits and '_' (1-24 characters, not starting with a digit)"
+        parts = []
+        if self.minimum is not None:
+            parts.append((">= " if self.min_inclusive else "> ") + f"{self.minimum:g}")
+        if self.maximum is not None:
+            parts.append(("<= " if self.max_inclusive else "< ") + f"{self.maximum:g}")
+        what = {"number": "a number", "int": "a whole number",
+                "range": "a number or [min, max] with min <= max"}[self.kind]
+        return what + (" " + " and ".join(parts) if parts else "")
+
+
+#: Every section and key the project file accepts. Units are in the key names.
+SCHEMA: dict[str, dict[str, Key]] = {
+    "rig": {
+        "hook_mass_kg": Key("number", required=True, minimum=0.0, min_inclusive=False),
+        "rigging_length_m": Key("number", required=True, minimum=0.0),
+        "rope_length_m": Key("range", required=True, minimum=0.0, min_inclusive=False),
+        "payload_mass_kg": Key("range", required=True, minimum=0.0),
+        "damping_ratio": Key("number", default=0.0, minimum=0.0, maximum=1.0, max_inclusive=False),
+        "gravity_m_s2": Key("number", default=9.80665, minimum=0.0, min_inclusive=False),
+        "nominal_rope_length_m": Key("number", default=None, minimum=0.0, min_inclusive=False),
+        "nominal_payload_mass_kg": Key("number", default=None, minimum=0.0),
+    },
+    "drive": {
+        "cycle_s": Key("number", required=True, minimum=1e-5, maximum=0.1),
+        "max_speed_m_s": Key("number", required=True, minimum=0.0, min_inclusive=False, maximum=10.0),
+        "max_accel_m_s2": Key("number", required=True, minimum=0.0, min_inclusive=False, maximum=10.0),
+        "max_jerk_m_s3": Key("number", default=None, minimum=0.0, min_inclusive=False),
+        "hoist_speed_m_s": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=5.0),
+        "hoist_accel_m_s2": Key("number", default=0.2, minimum=0.0, min_inclusive=False, maximum=10.0),
+    },
+    "move": {
+        "distance_m": Key("number", default=6.0, minimum=0.0, min_inclusive=False, maximum=1000.0),
+        "profile": Key("choice", default="trapezoid", choices=("trapezoid", "scurve")),
+        "hoist_to_m": Key("number", default=None, minimum=0.0, min_inclusive=False),
+        "hoist_start_s": Key("number", default=0.0, minimum=0.0),
+    },
+    "design": {
+        "tolerance_pct": Key("number", default=5.0, minimum=0.0, min_inclusive=False, maximum=100.0,
+                             max_inclusive=False),
+        "method": Key("choice", default="auto",
+                      choices=("auto", "zv", "zvd", "zvdd", "ei", "ei2", "ei3", "umzv", "band")),
+        "schedule": Key("bool", default=True),
+        "max_schedule_rows": Key("int", default=64, minimum=1, maximum=4096),
+    },
+    "notch": {
+        "width_hz": Key("number", default=None, minimum=0.0, min_inclusive=False),
+        "depth_db": Key("number", default=None, minimum=0.0, min_inclusive=False, maximum=200.0),
+    },
+    "firmware": {
+        "format": Key("choice", default="q15", choices=("q15", "q31")),
+        "prefix": Key("identifier", default="sway"),
+        "ram_budget_bytes": Key("int", default=32768, minimum=64, maximum=1 << 30),
+    },
+}
+REQUIRED_SECTIONS = ("rig", "drive")
+
+
+@dataclass(frozen=True)
+class Project:
+    """A validated project.
+
+    Attributes
+    ----------
+    envelope : Envelope
+        The rig over its rope-length and payload-mass ranges.
+    drive, move, design, notch, firmware : dict
+        Every key of that section of :data:`SCHEMA`, with defaults filled in.
+    digest : str
+        SHA-256 (hex) of the project file's bytes, for provenance in emitted files.
+    name : str
+        File stem, e.g. ``"demo_project"``.
+    """
+
+    envelope: Envelope
+    drive: dict
+    move: dict
+    design: dict
+    notch: dict
+    firmware: dict
+    digest: str
+    name: str = "project"
+    sections: dict = field(default_factory=dict, repr=False)
+
+
+def _where(section: str, key: str) -> str:
+    return f"[{section}] {key}"
+
+
+def _number(section: str, key: str, spec: Key, value: Any) -> float:
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        raise ConfigError(f"{_where(section, key)} = {value!r} is not a number; allowed: {spec.allowed()}")
+    v = float(value)
+    bad = not math.isfinite(v)
+    if spec.minimum is not None:
+        bad |= v < spec.minimum or (v == spec.minimum and not spec.min_inclusive)
+    if spec.maximum is not None:
+        bad |= v > spec.maximum or (v == spec.maximum and not spec.max_inclusive)
+    if bad:
+        raise ConfigError(f"{_where(section, key)} = {value!r} is out of range; allowed: {spec.allowed()}")
+    return v
+
+
+def _value(section: str, key: str, spec: Key, value: Any) -> Any:
+    where = _where(section, key)
+    if spec.kind == "number":
+        return _number(section, key, spec, value)
+    if spec.kind == "int":
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise ConfigError(f"{where} = {value!r} is not a whole number; allowed: {spec.allowed()}")
+        _number(section, key, spec, value)
+        return int(value)
+    if spec.kind == "range":
+        if isinstance(value, list):
+            if len(value) != 2:
+                raise ConfigError(f"{where} = {value!r} has {len(value)} items; allowed: {spec.allowed()}")
+            lo, hi = (_number(section, key, spec, v) for v in value)
+            if lo > hi:
+                raise ConfigError(f"{where} = {value!r} has min > max; allowed: {spec.allowed()}")
+            return (lo, hi)
+        v = _number(section, key, spec, value)
+        return (v, v)
+    if spec.kind == "bool":
+        if not isinstance(value, bool):
+            raise ConfigError(f"{where} = {value!r} is not true/false; allowed: {spec.allowed()}")
+        return value
+    if spec.kind == "choice":
+        if value not in spec.choices:
+            raise ConfigError(f"{where} = {value!r} is not allowed; allowed: {spec.allowed()}")
+        return value
+    if spec.kind == "identifier":
+        ok = (isinstance(value, str) and 1 <= len(value) <= 24 and value.isascii()
+              and (value[0].isalpha() or value[0] == "_") and all(c.isalnum() or c == "_" for c in value))
+        if not ok:
+            raise ConfigError(f"{where} = {value!r} is not allowed; allowed: {spec.allowed()}")
+        return value
+    raise AssertionError(f"unknown key kind {spec.kind}")  # schema bug, not user input
+
+
+def validate(data: dict) -> dict[str, dict]:
+    """Check parsed TOML against :data:`SCHEMA`; return every section with defaults filled in."""
+    if not isinstance(data, dict):
+        raise ConfigError("project file must be a TOML document of tables")
+    for section in data:
+        if section not in SCHEMA:
+            raise ConfigError(f"unknown section [{section}]; allowed: " + ", ".join(f"[{s}]" for s in SCHEMA))
+        if not isinstance(data[section], dict):
+            raise ConfigError(f"{section} must be a table [{section}], got {data[section]!r}")
+    for section in REQUIRED_SECTIONS:
+        if section not in data:
+            raise ConfigError(f"missing section [{section}]; required: " + ", ".join(f"[{s}]" for s in REQUIRED_SECTIONS))
+    out: dict[str, dict] = {}
+    for section, keys in SCHEMA.items():
+        given = data.get(section, {})
+        for key in given:
+            if key not in keys:
+                raise ConfigError(f"unknown key {_where(section, key)}; allowed keys: " + ", ".join(keys))
+        values = {}
+        for key, spec in keys.items():
+            if key in given:
+                values[key] = _value(section, key, spec, given[key])
+            elif spec.required:
+                raise ConfigError(f"missing key {_where(section, key)}; allowed: {spec.allowed()}")
+            else:
+                values[key] = spec.default
+        out[section] = values
+    return out
+
+
+def project_from_dict(data: dict, *, digest: str = "", name: str = "project") -> Project:
+    """Build a :class:`Project` from parsed TOML (a dict of sections)."""
+    s = validate(data)
+    rig = s["rig"]
+    try:
+        env = Envelope(
+            hook_mass_kg=rig["hook_mass_kg"],
+            rigging_length_m=rig["rigging_length_m"],
+            rope_length_range_m=rig["rope_length_m"],
+            payload_mass_range_kg=rig["payload_mass_kg"],
+            damping_ratio=rig["damping_ratio"],
+            gravity_m_s2=rig["gravity_m_s2"],
+            nominal_rope_length_m=rig["nominal_rope_length_m"],
+            nominal_payload_mass_kg=rig["nominal_payload_mass_kg"],
+        )
+    except StillhookError as exc:
+        raise ConfigError(f"[rig] {exc}") from None
+    hoist_to = s["move"]["hoist_to_m"]
+    if hoist_to is not None:
+        lo, hi = env.rope_length_range_m
+        if not lo <= hoist_to <= hi:
+            raise ConfigError(f"[move] hoist_to_m = {hoist_to:g} is outside the rope range; "
+                              f"allowed: a value in [{lo:g}, {hi:g}]")
+    return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name, s)
+
+
+def load_project(path: str | Path) -> Project:
+    """Read and validate a project TOML file.
+
+    Raises
+    ------
+    InputFileError
+        The file is missing, unreadable or not valid TOML.
+    ConfigError
+        A section or key is missing, unknown or out of range.
+    """
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise InputFileError(f"project file {str(p)!r} not found") from None
+    except IsADirectoryError:
+        raise InputFileError(f"project file {str(p)!r} is a directory") from None
+    except OSError as exc:
+        raise InputFileError(f"project file {str(p)!r} cannot be read: {exc.strerror}") from None
+    return _parse(raw, str(p), p.stem)
+
+
+def _parse(raw: bytes, label: str, name: str) -> Project:
+    try:
+        data = tomllib.loads(raw.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise InputFileError(f"project file {label!r} is not UTF-8 text") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise InputFileError(f"project file {label!r} is not valid TOML: {exc}") from None
+    try:
+        return project_from_dict(data, digest=hashlib.sha256(raw).hexdigest(), name=name)
+    except ConfigError as exc:
+        raise ConfigError(f"{label}: {exc}") from None
+
+
+def demo_project_text() -> str:
+    """The built-in demo project's TOML text (an invented scenario)."""
+    return resources.files("stillhook").joinpath("data", DEMO_PROJECT_NAME).read_text(encoding="utf-8")
+
+
+def load_demo_project() -> Project:
+    """The built-in demo project, validated."""
+    raw = demo_project_text().encode("utf-8")
+    return _parse(raw, DEMO_PROJECT_NAME, Path(DEMO_PROJECT_NAME).stem)
+
+
+def load_project_or_demo(path: str | None) -> Project:
+    """``path`` if given, else the demo; the CLI accepts ``demo`` as a project name too."""
+    if path is None or path == "demo":
+        return load_demo_project()
+    return load_project(path)
