@@ -206,7 +206,8 @@ def validate(data: dict) -> dict[str, dict]:
             raise ConfigError(f"{section} must be a table [{section}], got {data[section]!r}")
     for section in REQUIRED_SECTIONS:
         if section not in data:
-            raise ConfigError(f"missing section [{section}]; required: " + ", ".join(f"[{s}]" for s in REQUIRED_SECTIONS))
+            required = ", ".join(f"[{s}]" for s in REQUIRED_SECTIONS)
+            raise ConfigError(f"missing section [{section}]; required: {required}")
     out: dict[str, dict] = {}
     for section, keys in SCHEMA.items():
         given = data.get(section, {})

@@ -220,8 +220,9 @@ class Rig:
     def damping_matrix(self) -> np.ndarray:
         """Modal damping matrix C = M Phi diag(2 zeta w) Phi^T M (N m s / rad)."""
         if self.damping_ratio == 0.0 or self.is_single_pendulum:
-            m = self.hook_mass_kg + self.payload_mass_kg
-            c11 = 2.0 * self.damping_ratio * math.sqrt(self.gravity_m_s2 / self.rope_length_m) * m * self.rope_length_m**2
+            m, L1 = self.hook_mass_kg + self.payload_mass_kg, self.rope_length_m
+            # single pendulum: c11 = 2 zeta w m L1^2 with w = sqrt(g / L1)
+            c11 = 2.0 * self.damping_ratio * math.sqrt(self.gravity_m_s2 / L1) * m * L1**2
             return np.array([[c11, 0.0], [0.0, 0.0]])
         w2, phi = self._eig()
         M = self.mass_matrix()

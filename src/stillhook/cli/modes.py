@@ -1,0 +1,77 @@
+"""``stillhook modes``: the rig's sway modes at one point, and each mode's band over the envelope."""
+
+from __future__ import annotations
+
+import argparse
+
+from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+
+HELP = "sway modes of the hook and payload (frequencies, shapes, participation, bands over the envelope)"
+
+_RIG_OPTIONS = (("hook_mass", "KG", "hook block mass m1 (kg, > 0)"),
+                ("payload_mass", "KG", "payload mass m2 (kg, >= 0)"),
+                ("rope_length", "M", "hoist rope length L1, trolley to hook (m, > 0)"),
+                ("rigging_length", "M", "rigging length L2, hook to payload centre of mass (m, >= 0)"))
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    add_project_argument(p, optional=True)
+    for name, metavar, text in _RIG_OPTIONS:
+        p.add_argument("--" + name.replace("_", "-"), type=float, metavar=metavar, help=text)
+    p.add_argument("--gravity", type=float, metavar="G", default=None, help="gravity (m/s^2, default 9.80665)")
+    p.add_argument("--damping", type=float, metavar="Z", default=None,
+                   help="modal damping ratio (0 <= Z < 1, default 0)")
+    add_json_argument(p)
+
+
+def run(args: argparse.Namespace) -> int:
+    from stillhook.errors import ConfigError
+    from stillhook.project import load_project_or_demo
+    from stillhook.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig
+
+    given = [n for n, _, _ in _RIG_OPTIONS if getattr(args, n) is not None]
+    bands = None
+    if args.project is not None:
+        if given or args.gravity is not None or args.damping is not None:
+            raise ConfigError("give a project file or rig options (--hook-mass ...), not both")
+        project = load_project_or_demo(args.project)
+        env = project.envelope
+        rig = env.nominal_rig
+        bands = env.mode_bands_hz()
+        envelope = env.describe()
+    else:
+        missing = [n for n, _, _ in _RIG_OPTIONS if n not in given]
+        if missing:
+            raise ConfigError("missing " + ", ".join("--" + n.replace("_", "-") for n in missing)
+                              + "; give them all, or a project file")
+        rig = Rig(args.hook_mass, args.payload_mass, args.rope_length, args.rigging_length,
+                  STANDARD_GRAVITY_M_S2 if args.gravity is None else args.gravity,
+                  DEFAULT_DAMPING_RATIO if args.damping is None else args.damping)
+        envelope = None
+    modes = rig.modes()
+    out = {
+        "rig": {"hook_mass_kg": rig.hook_mass_kg, "payload_mass_kg": rig.payload_mass_kg,
+                "rope_length_m": rig.rope_length_m, "rigging_length_m": rig.rigging_length_m,
+                "gravity_m_s2": rig.gravity_m_s2, "damping_ratio": rig.damping_ratio},
+        "modes": [m.as_dict() for m in modes],
+    }
+    if bands is not None:
+        out["envelope"] = envelope
+        out["bands"] = [{"mode": i + 1, "frequency_lo_hz": lo, "frequency_hi_hz": hi}
+                        for i, (lo, hi) in enumerate(bands)]
+    if args.json:
+        print_json(out)
+        return 0
+    where = "nominal point" if bands is not None else "rig"
+    print(f"Sway modes at the {where}: hook {rig.hook_mass_kg:g} kg, payload {rig.payload_mass_kg:g} kg, "
+          f"rope {rig.rope_length_m:g} m, rigging {rig.rigging_length_m:g} m")
+    rows = [[i + 1, m.frequency_hz, m.period_s, m.omega_rad_s, m.damping_ratio, m.payload_to_hook_ratio,
+             m.hook_participation_m_per_m_s2, m.payload_participation_m_per_m_s2] for i, m in enumerate(modes)]
+    print(format_table(["mode", "freq Hz", "period s", "omega rad/s", "damping", "x2/x1",
+                        "hook m per m/s2", "payload m per m/s2"], rows))
+    if bands is not None:
+        (L_lo, L_hi), (m_lo, m_hi) = env.rope_length_range_m, env.payload_mass_range_kg
+        print(f"\nBands over the envelope (rope {L_lo:g}-{L_hi:g} m, payload {m_lo:g}-{m_hi:g} kg):")
+        print(format_table(["mode", "lowest Hz", "highest Hz", "hi/lo"],
+                           [[i + 1, lo, hi, hi / lo] for i, (lo, hi) in enumerate(bands)]))
+    return 0

@@ -1,0 +1,511 @@
+"""Command shapers: impulse sequences convolved with the trolley speed command.
+
+A shaper is a sequence of impulses (times t_i >= 0, amplitudes A_i summing to 1). Convolving it
+with the speed command delays and blends the command so that the sway it leaves cancels. For a
+mode of undamped angular frequency w and damping ratio zeta the residual vibration, as a
+fraction of what a single unit impulse leaves, is::
+
+    V(w, zeta) = exp(-zeta w t_n) sqrt(C^2 + S^2),
+    C = sum_i A_i exp(zeta w t_i) cos(w_d t_i),   S = sum_i A_i exp(zeta w t_i) sin(w_d t_i),
+    w_d = w sqrt(1 - zeta^2),  t_n = last impulse time.
+
+Equivalently V = exp(-zeta w t_n) |H(s_p)| with H(s) = sum_i A_i exp(-s t_i) evaluated at the
+pole s_p = -zeta w + j w_d, so V of a convolution is the product of the two V's.
+
+This module holds the :class:`Shaper` type, V and its sensitivity curve, the insensitivity width
+at a tolerance, the worst V over a band, and the closed-form shapers. Damped forms of the EI
+family and of UM-ZV are solved numerically in :mod:`stillhook.shaper_damped`.
+
+Notes
+-----
+V: Singer & Seering, "Preshaping command inputs to reduce system vibration", ASME J. Dyn. Sys.
+Meas. Control 112(1):76-82, 1990. ZV is the half-cycle posicast of O.J.M. Smith, "Posicast
+control of damped oscillatory systems", Proc. IRE 45(9):1249-1255, 1957.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from stillhook.errors import DesignError
+
+#: Impulse times closer than this (s) are merged by :meth:`Shaper.convolve` and the grid code.
+TIME_MERGE_S = 1e-9
+#: Relative slack used when deciding whether V is within a tolerance (floating-point noise only).
+_SLACK = 1e-9
+
+
+def _check_frequency(freq_hz: float) -> float:
+    f = float(freq_hz)
+    if not (math.isfinite(f) and f > 0.0):
+        raise DesignError(f"frequency {freq_hz!r} Hz is out of range; allowed: a finite number > 0")
+    return f
+
+
+def _check_damping(damping_ratio: float) -> float:
+    z = float(damping_ratio)
+    if not (math.isfinite(z) and 0.0 <= z < 1.0):
+        raise DesignError(f"damping ratio {damping_ratio!r} is out of range; allowed: 0 <= damping < 1")
+    return z
+
+
+def _check_tolerance(tolerance: float) -> float:
+    v = float(tolerance)
+    if not (math.isfinite(v) and 0.0 < v < 1.0):
+        raise DesignError(f"tolerance {tolerance!r} (fraction) is out of range; allowed: 0 < tolerance < 1 "
+                          "(e.g. 0.05 for 5 %)")
+    return v
+
+
+def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:
+    """V(w, zeta) of an impulse sequence, vectorized over ``omega_rad_s`` (any shape).
+
+    Parameters
+    ----------
+    times_s : array (n,), ascending, >= 0
+    amplitudes : array (n,)
+    omega_rad_s : float or array, > 0
+        Undamped natural angular frequencies of the mode (rad/s).
+    damping_ratio : float in [0, 1)
+
+    Returns
+    -------
+    ndarray, shape of ``omega_rad_s``
+        Residual vibration as a fraction (1 = as much as an unshaped step).
+
+    Notes
+    -----
+    V = exp(-zeta w t_n) |sum_i A_i exp(zeta w t_i) exp(j w_d t_i)|, written with the decays
+    exp(-zeta w (t_n - t_i)) <= 1 so that it cannot overflow (Singer & Seering 1990).
+    """
+    t = np.asarray(times_s, dtype=float)
+    a = np.asarray(amplitudes, dtype=float)
+    w = np.asarray(omega_rad_s, dtype=float)
+    zeta = float(damping_ratio)
+    wd = w * math.sqrt(1.0 - zeta * zeta)
+    phase = wd[..., None] * t
+    z = np.exp(1j * phase)
+    if zeta > 0.0:
+        z = z * np.exp(-zeta * w[..., None] * (t[-1] - t))
+    return np.abs(z @ a)
+
+
+@dataclass(frozen=True, eq=False)
+class Shaper:
+    """An input shaper: impulses at ``times_s`` with ``amplitudes``.
+
+    Parameters
+    ----------
+    times_s : array (n,), strictly ascending, times_s[0] == 0
+        Impulse times (s).
+    amplitudes : array (n,), summing to 1
+        Impulse amplitudes (unity DC gain, so the trolley ends where it would have).
+    name : str
+        Label such as ``"zvd@0.38Hz"``.
+
+    Attributes
+    ----------
+    duration_s : float
+        Time of the last impulse: how much the shaper lengthens a move.
+    overshoots_command : bool
+        True when an amplitude is negative (UM-ZV): the shaped speed can leave [0, v_max] and the
+        acceleration can reach ``command_gain`` times the command's, so the drive needs margin.
+    """
+
+    times_s: np.ndarray
+    amplitudes: np.ndarray
+    name: str = ""
+
+    def __post_init__(self) -> None:
+        t = np.array(self.times_s, dtype=float).reshape(-1)
+        a = np.array(self.amplitudes, dtype=float).reshape(-1)
+        if t.size == 0 or t.size != a.size:
+            raise DesignError(f"a shaper needs as many times as amplitudes (>= 1); got {t.size} and {a.size}")
+        if not (np.all(np.isfinite(t)) and np.all(np.isfinite(a))):
+            raise DesignError("shaper times and amplitudes must be finite numbers")
+        if abs(t[0]) > TIME_MERGE_S or np.any(np.diff(t) <= 0.0):
+            raise DesignError("shaper times must start at 0 and be strictly ascending; got "
+                              + ", ".join(f"{v:g}" for v in t))
+        if abs(a.sum() - 1.0) > 1e-9:
+            raise DesignError(f"shaper amplitudes must sum to 1 (unity gain); they sum to {a.sum():.12g}")
+        t[0] = 0.0
+        t.setflags(write=False)
+        a.setflags(write=False)
+        object.__setattr__(self, "times_s", t)
+        object.__setattr__(self, "amplitudes", a)
+
+    @classmethod
+    def from_impulses(cls, times_s, amplitudes, name: str = "") -> Shaper:
+        """Build a shaper from impulses in any order: sort, merge coincident, drop zeros, shift to 0.
+
+        Amplitudes are normalized to sum to 1 (raises DesignError when they sum to about 0).
+        """
+        t = np.asarray(times_s, dtype=float).reshape(-1)
+        a = np.asarray(amplitudes, dtype=float).reshape(-1)
+        if t.size != a.size or t.size == 0:
+            raise DesignError(f"a shaper needs as many times as amplitudes (>= 1); got {t.size} and {a.size}")
+        order = np.argsort(t, kind="stable")
+        t, a = t[order], a[order]
+        keep_t, keep_a = [t[0]], [a[0]]
+        for ti, ai in zip(t[1:], a[1:], strict=True):
+            if ti - keep_t[-1] <= TIME_MERGE_S:
+                keep_a[-1] += ai
+            else:
+                keep_t.append(ti)
+                keep_a.append(ai)
+        t, a = np.array(keep_t), np.array(keep_a)
+        nz = np.abs(a) > 1e-15
+        if not np.any(nz):
+            raise DesignError("shaper amplitudes are all zero")
+        t, a = t[nz], a[nz]
+        total = a.sum()
+        if abs(total) < 1e-12:
+            raise DesignError("shaper amplitudes sum to 0; a shaper must have unity gain")
+        return cls(t - t[0], a / total, name)
+
+    # -- basic properties -------------------------------------------------------------------
+    @property
+    def duration_s(self) -> float:
+        """Last impulse time (s)."""
+        return float(self.times_s[-1])
+
+    @property
+    def n_impulses(self) -> int:
+        return int(self.times_s.size)
+
+    @property
+    def overshoots_command(self) -> bool:
+        return bool(np.any(self.amplitudes < 0.0))
+
+    @property
+    def command_gain(self) -> float:
+        """sum |A_i|: bound on shaped acceleration over command acceleration (1 for positive shapers)."""
+        return float(np.abs(self.amplitudes).sum())
+
+    @property
+    def speed_range_factor(self) -> tuple[float, float]:
+        """Bounds (lo, hi) of shaped speed / v_max for a command within [0, v_max].
+
+        (-sum of negative amplitudes, sum of positive amplitudes): (0, 1) for positive shapers,
+        (-1, 2) for UM-ZV.
+        """
+        a = self.amplitudes
+        return float(a[a < 0].sum()), float(a[a > 0].sum())
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, Shaper):
+            return NotImplemented
+        return (self.name == other.name and np.array_equal(self.times_s, other.times_s)
+                and np.array_equal(self.amplitudes, other.amplitudes))
+
+    def __hash__(self) -> int:
+        return hash((self.name, self.times_s.tobytes(), self.amplitudes.tobytes()))
+
+    # -- maths ------------------------------------------------------------------------------
+    def residual_vibration(self, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:
+        """V(w, zeta) as a fraction, vectorized over ``omega_rad_s`` (see module docstring)."""
+        return residual_vibration(self.times_s, self.amplitudes, omega_rad_s, _check_damping(damping_ratio))
+
+    def vibration_at_hz(self, freq_hz, damping_ratio: float = 0.0) -> np.ndarray:
+        """V at frequencies given in Hz."""
+        return self.residual_vibration(2.0 * np.pi * np.asarray(freq_hz, dtype=float), damping_ratio)
+
+    def convolve(self, other: Shaper) -> Shaper:
+        """Convolution: every pair of impulses (t_i + t_j, A_i A_j), coincident impulses merged.
+
+        V of the result is V_self * V_other at every frequency (both are evaluated at the same pole).
+        """
+        t = (self.times_s[:, None] + other.times_s[None, :]).reshape(-1)
+        a = (self.amplitudes[:, None] * other.amplitudes[None, :]).reshape(-1)
+        name = "*".join(n for n in (self.name, other.name) if n)
+        return Shaper.from_impulses(t, a, name)
+
+    # -- drive cycle ------------------------------------------------------------------------
+    def on_grid(self, cycle_s: float, rtol: float = 1e-6) -> bool:
+        """True when every impulse time is a whole number of drive cycles (within rtol cycles)."""
+        k = self.times_s / float(cycle_s)
+        return bool(np.all(np.abs(k - np.round(k)) <= rtol))
+
+    def delays_cycles(self, cycle_s: float) -> np.ndarray:
+        """Impulse delays in whole drive cycles; DesignError if the shaper is not on the grid."""
+        cycle_s = float(cycle_s)
+        if not (math.isfinite(cycle_s) and cycle_s > 0.0):
+            raise DesignError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
+        if not self.on_grid(cycle_s):
+            raise DesignError(f"shaper {self.name or '(unnamed)'} has impulse times that are not whole "
+                              f"multiples of the drive cycle {cycle_s:g} s; use stillhook.cycle_grid.to_cycle_grid")
+        return np.round(self.times_s / cycle_s).astype(np.int64)
+
+    def apply(self, speed_m_s, cycle_s: float) -> np.ndarray:
+        """Shaped speed samples: y[k] = sum_i A_i v[k - d_i], length len(v) + max delay.
+
+        Parameters
+        ----------
+        speed_m_s : array (n,)
+            Speed command sampled every drive cycle.
+        cycle_s : float > 0
+            Drive cycle; the shaper must be on its grid.
+        """
+        v = np.asarray(speed_m_s, dtype=float).reshape(-1)
+        d = self.delays_cycles(cycle_s)
+        y = np.zeros(v.size + int(d[-1]))
+        for di, ai in zip(d, self.amplitudes, strict=True):
+            y[di:di + v.size] += ai * v
+        return y
+
+    def as_dict(self, cycle_s: float | None = None) -> dict:
+        """JSON-ready impulses; with ``cycle_s`` and on its grid, also ``delay_cycles`` per impulse."""
+        delays = self.delays_cycles(cycle_s) if cycle_s is not None and self.on_grid(cycle_s) else None
+        impulses = []
+        for i, (t, a) in enumerate(zip(self.times_s, self.amplitudes, strict=True)):
+            row = {"time_s": float(t), "amplitude": float(a)}
+            if delays is not None:
+                row["delay_cycles"] = int(delays[i])
+            impulses.append(row)
+        return {"name": self.name, "impulses": impulses, "duration_s": self.duration_s,
+                "overshoots_command": self.overshoots_command, "command_gain": self.command_gain}
+
+
+# -- sensitivity ------------------------------------------------------------------------------
+def sensitivity_curve(shaper: Shaper, design_freq_hz: float, damping_ratio: float = 0.0, *,
+                      ratio_max: float = 2.0, n: int = 401) -> tuple[np.ndarray, np.ndarray]:
+    """V against normalized frequency f/f0 in (0, ratio_max]: returns (ratios, V)."""
+    f0 = _check_frequency(design_freq_hz)
+    r = np.linspace(ratio_max / n, ratio_max, n)
+    return r, shaper.vibration_at_hz(r * f0, damping_ratio)
+
+
+def _grid_step_hz(shaper: Shaper) -> float:
+    # |dV/dw| <= sum A_i t_i <= t_n: a step of 0.01 / t_n rad/s moves V by at most 0.01.
+    return 0.01 / (2.0 * np.pi * max(shaper.duration_s, 1e-6))
+
+
+def insensitive_band_hz(shaper: Shaper, design_freq_hz: float, tolerance: float,
+                        damping_ratio: float = 0.0) -> tuple[float, float]:
+    """The contiguous frequency range around ``design_freq_hz`` where V <= tolerance.
+
+    Returns (f0, f0) when V(f0) itself exceeds the tolerance. Edges are found on a grid fine
+    enough that V moves by < 0.01 between points, then refined by root finding.
+    """
+    from scipy.optimize import brentq
+
+    f0, tol = _check_frequency(design_freq_hz), _check_tolerance(tolerance)
+    zeta = _check_damping(damping_ratio)
+
+    def excess(f):
+        return shaper.vibration_at_hz(f, zeta) - tol * (1.0 + _SLACK)
+
+    if excess(f0) > 0.0:
+        return f0, f0
+    step = min(_grid_step_hz(shaper), 0.01 * f0)
+    edges = []
+    for direction in (-1.0, 1.0):
+        inside = f0
+        found = None
+        while found is None:
+            n = 2048
+            span = inside + direction * step * np.arange(1, n + 1)
+            if direction < 0:
+                span = span[span > 0.0]
+                if span.size == 0:
+                    found = 0.0
+                    break
+            out = np.nonzero(excess(span) > 0.0)[0]
+            if out.size:
+                k = int(out[0])
+                a = inside if k == 0 else float(span[k - 1])
+                found = float(brentq(excess, a, float(span[k]), xtol=1e-12 * f0))
+            elif direction < 0 and span[-1] <= step:
+                found = 0.0
+            else:
+                inside = float(span[-1])
+                if inside > 1e3 * f0:
+                    raise DesignError("V stays within tolerance far above the design frequency; "
+                                      "the insensitive band is unbounded")
+        edges.append(found)
+    return edges[0], edges[1]
+
+
+def insensitivity_width(shaper: Shaper, design_freq_hz: float, tolerance: float = 0.05,
+                        damping_ratio: float = 0.0) -> float:
+    """Width of the insensitive band normalized by the design frequency: (f_hi - f_lo) / f0.
+
+    Notes
+    -----
+    The measure of Singhose, Seering & Singer, J. Mech. Design 116(2):654-659, 1994.
+    """
+    lo, hi = insensitive_band_hz(shaper, design_freq_hz, tolerance, damping_ratio)
+    return (hi - lo) / float(design_freq_hz)
+
+
+def worst_vibration(shaper: Shaper, f_lo_hz: float, f_hi_hz: float, damping_ratio: float = 0.0) -> tuple[float, float]:
+    """Largest V over [f_lo_hz, f_hi_hz]: returns (V_max, frequency in Hz where it occurs).
+
+    Sampled so that V moves < 0.01 between samples, then refined by a bounded scalar search.
+    """
+    from scipy.optimize import minimize_scalar
+
+    lo, hi = _check_frequency(f_lo_hz), _check_frequency(f_hi_hz)
+    if lo > hi:
+        raise DesignError(f"band [{lo:g}, {hi:g}] Hz has lo > hi; allowed: lo <= hi")
+    zeta = _check_damping(damping_ratio)
+    n = int(min(2_000_000, max(64, math.ceil((hi - lo) / _grid_step_hz(shaper)) + 1)))
+    f = np.linspace(lo, hi, n)
+    v = shaper.vibration_at_hz(f, zeta)
+    k = int(np.argmax(v))
+    best_v, best_f = float(v[k]), float(f[k])
+    if n > 1 and hi > lo:
+        a, b = float(f[max(k - 1, 0)]), float(f[min(k + 1, n - 1)])
+        res = minimize_scalar(lambda x: -float(shaper.vibration_at_hz(x, zeta)), bounds=(a, b),
+                              method="bounded", options={"xatol": 1e-10 * hi})
+        if -res.fun > best_v:
+            best_v, best_f = float(-res.fun), float(res.x)
+    return best_v, best_f
+
+
+# -- closed forms -----------------------------------------------------------------------------
+def _damped_half_period_s(freq_hz: float, zeta: float) -> float:
+    """Half the damped period: pi / w_d (s)."""
+    return 0.5 / (freq_hz * math.sqrt(1.0 - zeta * zeta))
+
+
+def _k_factor(zeta: float) -> float:
+    """K = exp(-zeta pi / sqrt(1 - zeta^2)): decay over half a damped period."""
+    return math.exp(-zeta * math.pi / math.sqrt(1.0 - zeta * zeta))
+
+
+def binomial(n: int, freq_hz: float, damping_ratio: float = 0.0) -> Shaper:
+    """The n-th binomial shaper: the coefficients of (1 + K z)^n at half damped periods.
+
+    n = 1 is ZV, 2 ZVD, 3 ZVDD. A_i = C(n, i) K^i / (1 + K)^n at t_i = i pi / w_d; V and its first
+    n - 1 frequency derivatives vanish at the design point.
+
+    Notes
+    -----
+    Singer & Seering, ASME JDSMC 112(1):76-82, 1990 (ZV, ZVD and the repeated-derivative family).
+    """
+    if isinstance(n, bool) or not isinstance(n, int | np.integer) or n < 1:
+        raise DesignError(f"binomial order n = {n!r} is out of range; allowed: a whole number >= 1")
+    f, zeta = _check_frequency(freq_hz), _check_damping(damping_ratio)
+    K, half = _k_factor(zeta), _damped_half_period_s(f, zeta)
+    a = np.array([math.comb(n, i) * K**i for i in range(n + 1)])
+    label = {1: "zv", 2: "zvd", 3: "zvdd"}.get(int(n), f"binomial{n}")
+    return Shaper(half * np.arange(n + 1), a / a.sum(), f"{label}@{f:.6g}Hz")
+
+
+def zv(freq_hz: float, damping_ratio: float = 0.0) -> Shaper:
+    """ZV: [1, K] / (1 + K) at [0, T_d/2] (Singer & Seering 1990; Smith's half-cycle posicast 1957)."""
+    return binomial(1, freq_hz, damping_ratio)
+
+
+def zvd(freq_hz: float, damping_ratio: float = 0.0) -> Shaper:
+    """ZVD: [1, 2K, K^2] / (1 + K)^2 at [0, T_d/2, T_d] (Singer & Seering 1990)."""
+    return binomial(2, freq_hz, damping_ratio)
+
+
+def zvdd(freq_hz: float, damping_ratio: float = 0.0) -> Shaper:
+    """ZVDD: [1, 3K, 3K^2, K^3] / (1 + K)^3 at half damped periods (Singer & Seering 1990)."""
+    return binomial(3, freq_hz, damping_ratio)
+
+
+def ei(freq_hz: float, damping_ratio: float = 0.0, tolerance: float = 0.05) -> Shaper:
+    """Extra-insensitive shaper: V = tolerance at f0 (a hump), V = 0 either side.
+
+    Undamped: [(1+V)/4, (1-V)/2, (1+V)/4] at [0, T/2, T]. Damped: solved from the same conditions
+    (:mod:`stillhook.shaper_damped`).
+
+    Notes
+    -----
+    Singhose, Seering & Singer, "Residual vibration reduction using vector diagrams to generate
+    shaping inputs", J. Mech. Design 116(2):654-659, 1994.
+    """
+    return _hump(1, freq_hz, damping_ratio, tolerance, "ei")
+
+
+def ei2(freq_hz: float, damping_ratio: float = 0.0, tolerance: float = 0.05) -> Shaper:
+    """Two-hump EI: impulses at [0, 0.5, 1, 1.5] T, A1 = A4 = (3X^2 + 2X + 3V^2)/(16X), A2 = A3 = 1/2 - A1,
+    X = (V^2 (sqrt(1 - V^2) + 1))^(1/3). Damped: solved numerically.
+
+    Notes
+    -----
+    Singhose, Porter, Tuttle & Singer, "Vibration reduction using multi-hump input shapers",
+    ASME JDSMC 119(2):320-326, 1997 (formula from memory, checked: each hump peaks at V).
+    """
+    return _hump(2, freq_hz, damping_ratio, tolerance, "ei2")
+
+
+def ei3(freq_hz: float, damping_ratio: float = 0.0, tolerance: float = 0.05) -> Shaper:
+    """Three-hump EI: five impulses at half periods, A1 = A5 = (1 + 3V + 2 sqrt(2V(V+1)))/16,
+    A2 = A4 = (1 - V)/4, A3 = 1 - 2(A1 + A2). Damped: solved numerically.
+
+    Notes
+    -----
+    Singhose, Porter, Tuttle & Singer, ASME JDSMC 119(2):320-326, 1997 (formula from memory).
+    """
+    return _hump(3, freq_hz, damping_ratio, tolerance, "ei3")
+
+
+def undamped_hump_amplitudes(n_humps: int, tolerance: float) -> np.ndarray:
+    """Amplitudes of the undamped EI (1 hump), two-hump and three-hump EI at half periods."""
+    V = _check_tolerance(tolerance)
+    if n_humps == 1:
+        return np.array([(1 + V) / 4, (1 - V) / 2, (1 + V) / 4])
+    if n_humps == 2:
+        X = (V * V * (math.sqrt(1 - V * V) + 1)) ** (1.0 / 3.0)
+        a1 = (3 * X * X + 2 * X + 3 * V * V) / (16 * X)
+        return np.array([a1, 0.5 - a1, 0.5 - a1, a1])
+    if n_humps == 3:
+        a1 = (1 + 3 * V + 2 * math.sqrt(2 * V * (V + 1))) / 16
+        a2 = (1 - V) / 4
+        return np.array([a1, a2, 1 - 2 * (a1 + a2), a2, a1])
+    raise DesignError(f"hump count {n_humps!r} is out of range; allowed: 1, 2 or 3")
+
+
+def _hump(n_humps: int, freq_hz: float, damping_ratio: float, tolerance: float, label: str) -> Shaper:
+    f, zeta, V = _check_frequency(freq_hz), _check_damping(damping_ratio), _check_tolerance(tolerance)
+    if zeta == 0.0:
+        a = undamped_hump_amplitudes(n_humps, V)
+        t = 0.5 / f * np.arange(a.size)
+    else:
+        from stillhook.shaper_damped import damped_hump_shaper
+
+        t, a = damped_hump_shaper(n_humps, 2.0 * math.pi * f, zeta, V)
+    return Shaper(t, a / a.sum(), f"{label}@{f:.6g}Hz")
+
+
+def umzv(freq_hz: float, damping_ratio: float = 0.0) -> Shaper:
+    """Unity-magnitude ZV: [1, -1, 1] at [0, T/6, T/3] undamped; damped times solved numerically.
+
+    Shortest ZV-type shaper (T/3), but its negative impulse makes the shaped speed overshoot and
+    reverse and triples the peak acceleration (``overshoots_command`` is True): the drive needs
+    that margin.
+
+    Notes
+    -----
+    Singhose, Singer & Seering, "Time-optimal negative input shapers", ASME JDSMC 119(2):198-205,
+    1997 (from memory). The paper fits the damped times with polynomials; here they are solved
+    from V(w0, zeta) = 0 directly.
+    """
+    f, zeta = _check_frequency(freq_hz), _check_damping(damping_ratio)
+    if zeta == 0.0:
+        t = np.array([0.0, 1.0 / 6.0, 1.0 / 3.0]) / f
+    else:
+        from stillhook.shaper_damped import damped_umzv_times
+
+        t = damped_umzv_times(2.0 * math.pi * f, zeta)
+    return Shaper(t, np.array([1.0, -1.0, 1.0]), f"umzv@{f:.6g}Hz")
+
+
+#: Closed-form constructors by CLI/project method name. Each takes (freq_hz, damping_ratio, tolerance).
+CLOSED_FORMS = {
+    "zv": lambda f, z, v: zv(f, z),
+    "zvd": lambda f, z, v: zvd(f, z),
+    "zvdd": lambda f, z, v: zvdd(f, z),
+    "ei": ei,
+    "ei2": ei2,
+    "ei3": ei3,
+    "umzv": lambda f, z, v: umzv(f, z),
+}
