@@ -315,7 +315,7 @@ def simulate(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=None, hoist_s
         mask = (t_out >= t0 - 1e-12) & (t_out < t1 - 1e-12)
         if b1 >= n_cycles:
             mask |= np.abs(t_out - t1) <= 1e-12
-        t_eval = np.concatenate([t_out[mask], [t1]])
+        t_eval = np.clip(np.concatenate([t_out[mask], [t1]]), t0, t1)
         t_eval = t_eval[np.concatenate([np.diff(t_eval) > 0, [True]])]
         sol = solve_ivp(rhs, (t0, t1), y, method="DOP853", rtol=rtol, atol=1e-12,
                         t_eval=t_eval, args=(int(b0), int(b1)))

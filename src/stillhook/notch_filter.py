@@ -62,7 +62,8 @@ class NotchSection:
         }
 
 
-def _sos_response(sos: np.ndarray, z: np.ndarray) -> np.ndarray:
+def sos_response(sos: np.ndarray, z: np.ndarray) -> np.ndarray:
+    """Product over sections of (b0 + b1 z^-1 + b2 z^-2) / (a0 + a1 z^-1 + a2 z^-2) at complex z."""
     zi = 1.0 / z
     h = np.ones_like(z, dtype=complex)
     for b0, b1, b2, a0, a1, a2 in sos:
@@ -113,17 +114,17 @@ class NotchDesign:
     def centroid_delay_s(self) -> float:
         """Centroid of the impulse response = group delay at DC (s).
 
-        tau = T sum_sections (sum k a_k / sum a_k - sum k b_k / sum b_k); the counterpart of a
-        shaper's sum A_i t_i. Close to sum 2 (zeta_p - zeta_z) / w for f0 << 1/T.
+        tau = T sum_sections (sum k b_k / sum b_k - sum k a_k / sum a_k) for H = B(z^-1)/A(z^-1);
+        the counterpart of a shaper's sum A_i t_i. Close to sum 2 (zeta_p - zeta_z) / w for f0 << 1/T.
         """
         k = np.arange(3)
-        tau = sum(float(row[3:] @ k / row[3:].sum() - row[:3] @ k / row[:3].sum()) for row in self.sos)
+        tau = sum(float(row[:3] @ k / row[:3].sum() - row[3:] @ k / row[3:].sum()) for row in self.sos)
         return tau * self.cycle_s
 
     def frequency_response(self, freqs_hz) -> np.ndarray:
         """Complex response H(e^(j 2 pi f T)) of the cascade at frequencies (Hz), vectorized."""
         f = np.asarray(freqs_hz, dtype=float)
-        return _sos_response(self.sos, np.exp(2j * math.pi * f * self.cycle_s))
+        return sos_response(self.sos, np.exp(2j * math.pi * f * self.cycle_s))
 
     def residual_vibration(self, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:
         """Residual sway with the filter as a fraction of that without, for modes at omega (vectorized).
@@ -135,7 +136,7 @@ class NotchDesign:
         w = np.asarray(omega_rad_s, dtype=float)
         zeta = float(damping_ratio)
         s = -zeta * w + 1j * w * math.sqrt(1.0 - zeta * zeta)
-        return np.abs(_sos_response(self.sos, np.exp(s * self.cycle_s)))
+        return np.abs(sos_response(self.sos, np.exp(s * self.cycle_s)))
 
     def ring_out_samples(self, decay: float = TAIL_DECAY) -> int:
         """Samples for every filter mode to decay to ``decay``: ceil(ln decay / ln r_max)."""
@@ -168,7 +169,11 @@ class NotchDesign:
         return sosfilt(self.sos, np.concatenate([v, np.zeros(self.ring_out_samples(decay))]))
 
     def tf(self):
-        """The cascade as a python-control TransferFunction in z (dt = cycle_s)."""
+        """The cascade as a python-control TransferFunction in z (dt = cycle_s).
+
+        The expanded polynomials are ill-conditioned near z = 1 when f0 << 1/T (their sums at z = 1
+        are ~(w T)^4): their DC gain is 1 only to ~1e-7. Filter with ``sos``, not with this.
+        """
         import control
 
         num, den = np.array([1.0]), np.array([1.0])

@@ -109,6 +109,14 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "format": Key("choice", default="q15", choices=("q15", "q31")),
         "prefix": Key("identifier", default="sway"),
         "ram_budget_bytes": Key("int", default=32768, minimum=64, maximum=1 << 30),
+        # rope length input of the schedule lookup: metres per count of the uint32 the drive passes
+        "rope_length_lsb_m": Key("number", default=0.001, minimum=1e-6, maximum=1.0),
+        # emit the notch cascade too; unset: emit it when the [notch] section sets a key
+        "notch": Key("bool", default=None),
+        # largest shift of a notch frequency that coefficient rounding may cause, percent of it
+        "max_notch_shift_pct": Key("number", default=1.0, minimum=0.0, min_inclusive=False, maximum=50.0),
+        # when Q15 rounding would move a notch past that limit, emit everything in Q31 instead of refusing
+        "escalate_to_q31": Key("bool", default=True),
     },
 }
 REQUIRED_SECTIONS = ("rig", "drive")

@@ -36,6 +36,8 @@ from stillhook.errors import DesignError
 TIME_MERGE_S = 1e-9
 #: Relative slack used when deciding whether V is within a tolerance (floating-point noise only).
 _SLACK = 1e-9
+#: insensitive_band_hz stops searching upward at this multiple of the design frequency.
+_UNBOUNDED_RATIO = 100.0
 
 
 def _check_frequency(freq_hz: float) -> float:
@@ -287,8 +289,10 @@ def insensitive_band_hz(shaper: Shaper, design_freq_hz: float, tolerance: float,
                         damping_ratio: float = 0.0) -> tuple[float, float]:
     """The contiguous frequency range around ``design_freq_hz`` where V <= tolerance.
 
-    Returns (f0, f0) when V(f0) itself exceeds the tolerance. Edges are found on a grid fine
-    enough that V moves by < 0.01 between points, then refined by root finding.
+    Returns (f0, f0) when V(f0) itself exceeds the tolerance, and an upper edge of ``inf`` when V
+    stays within the tolerance up to 100 f0 (heavy damping makes V decay at high frequency).
+    Edges are found on a grid fine enough that V moves by < 0.01 between points, then refined
+    by root finding.
     """
     from scipy.optimize import brentq
 
@@ -303,29 +307,22 @@ def insensitive_band_hz(shaper: Shaper, design_freq_hz: float, tolerance: float,
     step = min(_grid_step_hz(shaper), 0.01 * f0)
     edges = []
     for direction in (-1.0, 1.0):
-        inside = f0
-        found = None
-        while found is None:
-            n = 2048
-            span = inside + direction * step * np.arange(1, n + 1)
-            if direction < 0:
-                span = span[span > 0.0]
-                if span.size == 0:
-                    found = 0.0
-                    break
-            out = np.nonzero(excess(span) > 0.0)[0]
+        inside, edge = f0, None
+        while edge is None:
+            span = inside + direction * step * np.arange(1, 2049)
+            span = span[span > 0.0]
+            out = np.nonzero(excess(span) > 0.0)[0] if span.size else np.array([], dtype=int)
             if out.size:
                 k = int(out[0])
-                a = inside if k == 0 else float(span[k - 1])
-                found = float(brentq(excess, a, float(span[k]), xtol=1e-12 * f0))
-            elif direction < 0 and span[-1] <= step:
-                found = 0.0
+                a, b = (inside if k == 0 else float(span[k - 1])), float(span[k])
+                edge = float(brentq(excess, min(a, b), max(a, b), xtol=1e-12 * f0))
+            elif span.size < 2048:  # walked down to 0 Hz without leaving the tolerance
+                edge = 0.0
+            elif span[-1] > _UNBOUNDED_RATIO * f0:  # heavy damping: V decays at high frequency
+                edge = math.inf
             else:
                 inside = float(span[-1])
-                if inside > 1e3 * f0:
-                    raise DesignError("V stays within tolerance far above the design frequency; "
-                                      "the insensitive band is unbounded")
-        edges.append(found)
+        edges.append(edge)
     return edges[0], edges[1]
 
 

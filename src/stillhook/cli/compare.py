@@ -1,0 +1,59 @@
+"""``stillhook compare``: unshaped, ZV, ZVD, EI, band, two-mode shaper and notch side by side."""
+
+from __future__ import annotations
+
+import argparse
+
+from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+
+HELP = "compare shapers and the notch filter on the project's move (nonlinear simulation, one table)"
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    add_project_argument(p)
+    p.add_argument("--distance", type=float, metavar="M", default=None,
+                   help="travel distance (m); default: [move] distance_m of the project")
+    p.add_argument("--no-hoist", action="store_true",
+                   help="keep the rope length fixed (ignore [move] hoist_to_m)")
+    add_json_argument(p)
+
+
+def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
+    return "-" if value is None else format(value * scale, fmt)
+
+
+def run(args: argparse.Namespace) -> int:
+    from stillhook import CAUTIONS
+    from stillhook.compare import compare_project
+    from stillhook.project import load_project_or_demo
+
+    project = load_project_or_demo(args.project)
+    result = compare_project(project, distance_m=args.distance, include_hoist=not args.no_hoist)
+    if args.json:
+        print_json({**result.as_dict(), "cautions": list(CAUTIONS)})
+        return 0
+    rig = result.rig
+    print(f"Comparison on {result.project}: {result.distance_m:.4g} m move, nominal rig "
+          f"(rope {rig['rope_length_m']:g} m, payload {rig['payload_mass_kg']:g} kg, modes "
+          + ", ".join(f"{f:.4g}" for f in rig["modes_hz"]) + " Hz)"
+          + (", hoisting during the move" if result.hoist else "") + f", drive cycle {result.cycle_s:g} s")
+    print(f"At rest: |payload offset| <= {1000 * result.rest_threshold_m:.3g} mm "
+          f"({100 * result.tolerance:g} % of the unshaped residual sway); unshaped command ends at "
+          f"{result.unshaped_end_s:.4g} s; residual measured over {result.settle_window_s:g} s after each command.")
+    rows = [[r.label, r.tuned_to, _cell(r.duration_s), _cell(r.centroid_delay_s),
+             _cell(r.residual_sway_m, 1000), _cell(r.residual_pct, fmt=".3g"), _cell(r.peak_sway_m, 1000),
+             _cell(r.added_delay_s), _cell(r.final_position_error_m, 1000, ".2g"),
+             _cell(r.peak_speed_m_s), _cell(r.peak_accel_m_s2)] for r in result.rows]
+    print(format_table(["method", "tuned to", "dur s", "mean delay s", "residual mm", "residual %",
+                        "peak mm", "added delay s", "end error mm", "peak m/s", "peak m/s2"], rows))
+    print("\nadded delay: time the load is at rest minus the unshaped command's end ('-': not at rest in the "
+          "window); dur: extra command length (notch: ring-out padding); mean delay: sum A_i t_i or the "
+          "notch's group delay at DC; end error: final trolley position minus the distance.")
+    if result.notes:
+        print("\nNotes:")
+        for n in result.notes:
+            print(f"  - {n}")
+    print("\nCautions:")
+    for c in CAUTIONS:
+        print(f"  - {c}")
+    return 0

@@ -1,0 +1,71 @@
+"""``stillhook demo``: the whole job on the built-in demo project, into one folder."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+HELP = ("run the whole job on the built-in demo project: modes, design, comparison, envelope sweep, "
+        "firmware (C + self-test), report")
+
+_DEFAULT_OUT = "stillhook-demo"
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--out", metavar="DIR", default=_DEFAULT_OUT,
+                   help=f"output folder (default ./{_DEFAULT_OUT}); report.html and firmware/ go here")
+    p.add_argument("--grid", type=int, nargs=2, metavar=("NL", "NM"), default=None,
+                   help="envelope sweep grid, rope lengths x payload masses (default 21 21)")
+    p.add_argument("--no-selftest", action="store_true",
+                   help="do not compile and run the emitted C self-test")
+
+
+def _summary(result, out: str) -> list[str]:
+    from stillhook import CAUTIONS
+
+    st = result.study
+    p = st.project
+    env = p.envelope
+    rig = env.nominal_rig
+    lines = [f"stillhook demo: project {p.name} (an invented crane), drive cycle {p.drive['cycle_s']:g} s"]
+    modes = ", ".join(f"{m.frequency_hz:.3g} Hz" for m in rig.modes())
+    bands = ", ".join(f"{lo:.3g}-{hi:.3g} Hz" for lo, hi in env.mode_bands_hz())
+    lines.append(f"1 modes      nominal rig ({rig.rope_length_m:g} m rope, {rig.payload_mass_kg:g} kg): {modes}; "
+                 f"bands over the envelope: {bands}")
+    d = st.design
+    sched = f", length schedule of {len(d.schedule.shapers)} rows" if d.schedule is not None else ""
+    lines.append(f"2 design     shaper {d.shaper.name} ({d.shaper.duration_s:.3g} s){sched}")
+    lines.append(f"             why: {d.reason}")
+    if st.comparison is not None:
+        cells = [f"{r.method} {r.residual_pct:.3g} %" for r in st.comparison.rows]
+        lines.append("3 comparison residual sway on the project's move (% of unshaped): " + ", ".join(cells))
+    if st.sweep is not None:
+        tol = 100 * st.sweep.tolerance
+        cells = [f"{s['label']}: {100 * s['share_within_tolerance']:.1f} % (worst {100 * s['worst_ratio']:.3g} %)"
+                 for k, s in st.sweep.summary().items() if k != "unshaped"]
+        g = st.sweep.grid_shape
+        lines.append(f"4 sweep      {g[0]} x {g[1]} rigs within {tol:g} % of unshaped: " + "; ".join(cells))
+    for stage, msg in sorted(st.problems.items()):
+        lines.append(f"  note       {stage}: {msg}")
+    plan = st.emit_plan
+    sz = plan.sizes()
+    lines.append(f"5 firmware   {len(st.firmware_files)} files in {out}/firmware ({plan.fmt.upper()}, {len(plan.rows)} "
+                 f"rows, RAM {sz['ram_bytes']} B, tables {sz['flash_table_bytes']} B), input digest "
+                 f"{plan.digest[:16]}...")
+    lines.append(f"             self-test: {result.selftest['summary']}")
+    lines.append(f"6 report     {out}/report.html (self-contained; figures also in {out}/figures, data in "
+                 f"{out}/report.json)")
+    lines.append(f"done in {result.timings_s['total']:.1f} s")
+    lines.append("Cautions:")
+    lines.extend(f"  - {c}" for c in CAUTIONS)
+    return lines
+
+
+def run(args: argparse.Namespace) -> int:
+    from stillhook.cli.report import stage_printer
+    from stillhook.demo import run_demo
+
+    result = run_demo(args.out, grid=tuple(args.grid) if args.grid else None, selftest=not args.no_selftest,
+                      progress=stage_printer(sys.stderr.isatty()))
+    print("\n".join(_summary(result, args.out)))
+    return 0 if result.selftest.get("passed") is not False else 1

@@ -1,0 +1,54 @@
+"""``stillhook report``: the design report (one self-contained HTML page, its figures and a JSON file)."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from stillhook.cli._common import add_json_argument, add_project_argument, print_json
+
+HELP = "write the design report: report.html (self-contained), report.json and figures/ (PNG, SVG)"
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    add_project_argument(p)
+    p.add_argument("--out", required=True, metavar="DIR",
+                   help="output folder (created; files are written all at once or not at all)")
+    p.add_argument("--grid", type=int, nargs=2, metavar=("NL", "NM"), default=None,
+                   help="envelope sweep grid, rope lengths x payload masses (default 21 21)")
+    p.add_argument("--distance", type=float, metavar="M", default=None,
+                   help="travel distance of the envelope sweep's trapezoid (m, default 6); the comparison "
+                        "uses the project's own move")
+    p.add_argument("--no-check", action="store_true",
+                   help="skip the sweep's nonlinear spot checks at the envelope corners")
+    add_json_argument(p)
+
+
+def stage_printer(enabled: bool):
+    """A progress callback printing each stage on stderr, or None."""
+    if not enabled:
+        return None
+
+    def say(stage: str) -> None:
+        sys.stderr.write(f"  ... {stage}\n")
+        sys.stderr.flush()
+
+    return say
+
+
+def run(args: argparse.Namespace) -> int:
+    from stillhook.project import load_project_or_demo
+    from stillhook.report import REPORT_GRID, write_report
+
+    project = load_project_or_demo(args.project)
+    grid = tuple(args.grid) if args.grid else REPORT_GRID
+    study, written = write_report(project, args.out, grid=grid, distance_m=args.distance, check=not args.no_check,
+                                  progress=stage_printer(not args.json and sys.stderr.isatty()))
+    names = sorted(str(p.relative_to(args.out)) for p in written)
+    if args.json:
+        print_json({"out": str(args.out), "files": names, "problems": dict(sorted(study.problems.items()))})
+        return 0
+    print(f"wrote {len(names)} files to {args.out}: report.html (open it in a browser), report.json, figures/")
+    for stage, msg in sorted(study.problems.items()):
+        print(f"note: {stage}: {msg}")
+    return 0
