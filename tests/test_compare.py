@@ -80,3 +80,21 @@ def test_json_ready(table):
 def test_unknown_method_is_an_error():
     with pytest.raises(ConfigError, match="allowed"):
         compare_project(project_from_dict(TWO_MODE), methods=("unshaped", "fancy"))
+
+
+def test_at_rest_needs_the_payload_at_the_destination():
+    # A payload hanging still 0.5 m short of the destination is not at rest there; the definition measures
+    # the payload's place (trolley + offset), not only its sway.
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from stillhook.compare import time_at_rest_s
+
+    t = np.linspace(0.0, 10.0, 101)
+    trolley = np.minimum(t, 5.0)                       # arrives at 5 m at t = 5 s
+    sway = np.where(t < 7.0, 0.2 * np.sin(t), 0.001)    # sway dies at t = 7 s
+    res = SimpleNamespace(t_s=t, trolley_position_m=trolley, payload_offset_m=sway)
+    assert time_at_rest_s(res, 5.0, 0.01) == pytest.approx(7.0)
+    assert time_at_rest_s(res, 5.5, 0.01) is None        # never within 1 cm of 5.5 m
+    assert time_at_rest_s(res, 5.0, 10.0) == 0.0

@@ -191,3 +191,25 @@ def test_cli_emits_the_minimal_project(minimal_project_file, tmp_path, capsys):
     assert (out / "hoist1_tables.h").is_file() and (out / "hoist1_selftest.c").is_file()
     project = load_project(minimal_project_file)
     assert m["input_digest_sha256"] == project.digest
+
+
+def test_quantized_default_design_keeps_the_tolerance_over_the_envelope(minimal_project_file):
+    # The default design promises residual payload sway within [design] tolerance_pct (5 %) of unshaped over
+    # rope range x payload range. Rebuild each row from the emitted INTEGERS (amplitude / 2^15 at delay x
+    # cycle), pick rows exactly as the C lookup does, and evaluate the residual vibration V of Singer &
+    # Seering (ASME JDSMC 112(1), 1990) weighted by each mode's payload participation (the project's
+    # residual-ratio definition, stillhook.residual_map) on a grid denser than the rows.
+    from stillhook.residual_map import residual_ratio
+
+    project = load_project(minimal_project_file)
+    plan = plan_for_project(project)
+    T = plan.cycle_s
+    shapers = [Shaper(np.array(r.delays_cycles) * T, np.array(r.amplitudes) / 2.0**15) for r in plan.rows]
+    env = project.envelope
+    Ls = np.linspace(*env.rope_length_range_m, 97)
+    ms = np.linspace(*env.payload_mass_range_kg, 25)
+    rows, status = plan.schedule.lookup(plan.schedule.counts(Ls))
+    assert np.all(status == 0)
+    worst = max(float(residual_ratio(env, shapers[k], [L], ms)[0].max()) for L, k in zip(Ls, rows, strict=True))
+    assert worst <= project.design["tolerance_pct"] / 100.0
+    assert len(plan.rows) >= 2  # length-scheduled

@@ -182,8 +182,8 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
                          "both bands" if design.high_mode_treated else "low band only (see reason)"))
     notes.append(f"project design: {design.reason}")
     notch = notch_for_project(project)
-    out.append(Candidate("notch", "notch (both modes)", notch,
-                         ", ".join(f"{s.frequency_hz:.4g} Hz" for s in notch.sections)))
+    out.append(Candidate("notch", "notch (project)", notch,
+                         "bands, centres " + ", ".join(f"{s.frequency_hz:.4g}" for s in notch.sections) + " Hz"))
     notes.extend(f"notch: {w}" for w in notch.warnings)
     return out, notes
 
@@ -216,7 +216,7 @@ def time_at_rest_s(result, target_m: float, threshold_m: float) -> float | None:
 
 
 def compare_project(project, *, distance_m: float | None = None, include_hoist: bool = True,
-                    methods=METHODS, rtol: float = 1e-8) -> Comparison:
+                    methods=METHODS, rtol: float = 1e-7) -> Comparison:
     """Simulate the project's move with every candidate and measure it.
 
     Parameters
@@ -228,8 +228,9 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
         Hoist during travel as ``[move] hoist_to_m`` asks (the hoist command is never filtered).
     methods : sequence of str
         Subset of :data:`METHODS` (``unshaped`` is always run: the others are measured against it).
-    rtol : float
-        Relative tolerance of the nonlinear integration.
+    rtol : float, default 1e-7
+        Relative tolerance of the nonlinear integration (the sway figures agree with 1e-9 to about
+        0.1 %; the long notch-filtered command is the slow run).
 
     Returns
     -------

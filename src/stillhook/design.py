@@ -37,6 +37,8 @@ DESIGN_MARGIN = 0.02
 CHECK_GRID = (41, 41)
 #: Target spread of the low-mode frequency across the rope lengths one schedule row serves.
 ROW_SPREAD = 0.08
+#: Each row's design span is widened by this fraction of its span on both sides (inside the range).
+ROW_OVERLAP = 0.05
 #: Schedule rows skip trying a low-mode-only shaper when the high mode's share of the payload
 #: participation exceeds this multiple of the tolerance.
 _GATE_SHARE_PER_TOL = 2.0
@@ -54,8 +56,10 @@ class Schedule:
     midpoint between rows k and k + 1. Lengths below the first row use row 0 and above the last
     row use the last row (outside the designed envelope: the firmware should flag this).
     Each row's shaper is designed for every rope length that selects it (from the switch length
-    below to the switch length above, the range ends for the first and last rows) over the whole
-    payload range, so the tolerance also holds between rows.
+    below to the switch length above, the range ends for the first and last rows), widened by
+    ROW_OVERLAP of the row's span on each side inside the range (so a length measured or
+    quantized slightly past a switch length is still covered), over the whole payload range: the
+    tolerance also holds between rows.
 
     Attributes
     ----------
@@ -74,6 +78,10 @@ class Schedule:
     cycle_s: float
     tolerance: float
     high_mode_treated: tuple = ()
+    reason: str = ""
+
+    #: The lookup rule by name, as the code generator reads it.
+    lookup_rule = "nearest"
 
     def __post_init__(self) -> None:
         L = np.array(self.rope_lengths_m, dtype=float).reshape(-1)
@@ -115,7 +123,9 @@ class Schedule:
 
     def as_dict(self) -> dict:
         return {
-            "lookup_rule": "nearest row: row = count of switch_lengths_m <= measured length",
+            "lookup_rule": self.lookup_rule,
+            "lookup": "row = count of switch_lengths_m <= measured rope length (nearest row, longer on a tie)",
+            "reason": self.reason,
             "cycle_s": self.cycle_s,
             "tolerance": self.tolerance,
             "switch_lengths_m": [float(v) for v in self.switch_lengths_m],
@@ -251,8 +261,9 @@ def _decide(env, method: str, bands, tol: float, tol_d: float, zeta: float, cycl
     """Return (shaper, convolved, high_treated, reason) for one (sub-)envelope.
 
     With ``gate`` (schedule rows, for speed) a low-mode-only shaper is not even tried when the
-    high mode carries more than ``_GATE_SHARE_PER_TOL`` times the tolerance of the payload participation somewhere: it would
-    need to attenuate the high mode by chance. The gate only ever errs toward treating the mode.
+    high mode's share of the payload participation exceeds ``_GATE_SHARE_PER_TOL`` times the
+    tolerance somewhere: it would need to attenuate the high mode by chance. The gate only ever
+    errs toward treating the mode.
     """
     Ls, ms = grid
     if len(bands) == 1:
@@ -321,7 +332,9 @@ def _schedule(project, whole: Shaper) -> Schedule:
     rows = schedule_rope_lengths(env, int(project.design["max_schedule_rows"]))
     probe = Schedule(rows, [whole] * rows.size, cycle, tol)
     shapers, treated, hint = [], [], None
+    lo_range, hi_range = env.rope_length_range_m
     for a, b in probe.row_spans_m():
+        a, b = max(lo_range, a - ROW_OVERLAP * (b - a)), min(hi_range, b + ROW_OVERLAP * (b - a))
         sub = _sub_envelope(env, a, b)
         bands = _bands(sub)
         _check_low_band(bands, cycle)
@@ -333,7 +346,10 @@ def _schedule(project, whole: Shaper) -> Schedule:
             s = whole  # the whole-envelope shaper also serves this row and is shorter
         shapers.append(s)
         treated.append(high)
-    return Schedule(rows, shapers, cycle, tol, tuple(treated))
+    n_high = sum(treated)
+    reason = (f"{rows.size} rows spaced evenly in log(rope + rigging length) (about {100 * ROW_SPREAD:g} % of "
+              f"low-mode frequency per row); high mode treated in {n_high} of {rows.size} rows")
+    return Schedule(rows, shapers, cycle, tol, tuple(treated), reason)
 
 
 def schedule_ratio(env, schedule: Schedule, rope_lengths_m, payload_masses_kg) -> np.ndarray:

@@ -362,7 +362,7 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
     files[f"{p}_tables.h"] = render_tables_h(plan)
     files[f"{p}_tables.c"] = render_tables_c(plan)
     files[f"{p}_selftest.c"] = render_selftest(plan)
-    files["README.md"] = render_readme(plan)
+    files[f"{p}_README.md"] = render_readme(plan)
     names = sorted([*files, "manifest.json"])
     files["manifest.json"] = to_json(plan.manifest(names))
     return {k: files[k] for k in sorted(files)}

@@ -339,7 +339,10 @@ def render_selftest(plan) -> str:
 
 
 def render_readme(plan) -> str:
-    """README.md of the emitted folder: files, build, contracts in brief, sizes, cautions."""
+    """``<prefix>_README.md`` of the emitted folder: files, build, contracts in brief, sizes, cautions.
+
+    Prefixed so that emitting into an existing folder never overwrites a README of the user's.
+    """
     p, f = plan.prefix, plan.fmt
     sz = plan.sizes()
     lines = [

@@ -18,6 +18,8 @@ V of a shaper: Singer & Seering, ASME J. Dyn. Sys. Meas. Control 112(1):76-82, 1
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from stillhook.errors import ConfigError
@@ -110,9 +112,13 @@ def time_response_data(project, filters: dict, *, distance_m: float | None = Non
             runs.append((key, label, flt.apply(speed, T)))
     ends = [len(cmd) * T for key, _, cmd in runs if key != "notch"]
     t_end = max(ends) + after_s
+    # A command longer than the window (a notch's ring-out) is cut two cycles after it: the motion
+    # up to t_end does not depend on the command after t_end (causality), and the cut is not shown.
+    n_win = math.ceil(t_end / T - 1e-9) + 2
     series, n = [], None
     for key, label, cmd in runs:
-        res = simulate(rig, cmd, T, hoist_speed_m_s=hoist, rtol=rtol, settle_s=max(1.0, t_end - len(cmd) * T + T))
+        cmd = cmd[:n_win]
+        res = simulate(rig, cmd, T, hoist_speed_m_s=hoist, rtol=rtol, settle_s=max(T, t_end - (len(cmd) - 1) * T) + T)
         keep = res.t_s <= t_end + 1e-9
         n = int(keep.sum()) if n is None else min(n, int(keep.sum()))
         series.append((key, label, res))

@@ -68,9 +68,13 @@ def _undamped_features(A: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.nda
 
 
 def _solve(fun, x0: np.ndarray, what: str, zeta: float) -> np.ndarray:
+    import warnings
+
     from scipy.optimize import fsolve
 
-    x = fsolve(fun, x0, xtol=1e-13)
+    with warnings.catch_warnings():  # progress warnings are moot: the residual is checked below
+        warnings.simplefilter("ignore", RuntimeWarning)
+        x = fsolve(fun, x0, xtol=1e-13)
     if np.max(np.abs(fun(x))) > 1e-9:
         raise DesignError(f"no damped {what} shaper found for damping ratio {zeta:g}; "
                           "allowed: a lighter damping ratio, or a ZV/ZVD-family shaper (exact for any damping)")

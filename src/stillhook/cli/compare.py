@@ -42,7 +42,7 @@ def run(args: argparse.Namespace) -> int:
           f"{result.unshaped_end_s:.4g} s; residual measured over {result.settle_window_s:g} s after each command.")
     rows = [[r.label, r.tuned_to, _cell(r.duration_s), _cell(r.centroid_delay_s),
              _cell(r.residual_sway_m, 1000), _cell(r.residual_pct, fmt=".3g"), _cell(r.peak_sway_m, 1000),
-             _cell(r.added_delay_s), _cell(r.final_position_error_m, 1000, ".2g"),
+             _cell(r.added_delay_s), _cell(r.final_position_error_m, 1000, ".2f"),
              _cell(r.peak_speed_m_s), _cell(r.peak_accel_m_s2)] for r in result.rows]
     print(format_table(["method", "tuned to", "dur s", "mean delay s", "residual mm", "residual %",
                         "peak mm", "added delay s", "end error mm", "peak m/s", "peak m/s2"], rows))

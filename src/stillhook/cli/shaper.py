@@ -1,0 +1,144 @@
+"""``stillhook shaper``: a command shaper from a method and frequencies, or the design for a project."""
+
+from __future__ import annotations
+
+import argparse
+
+from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+
+HELP = "design a command shaper (ZV, ZVD, ZVDD, EI, two/three-hump EI, UM-ZV, band, two-mode) or a project's"
+
+METHODS = ("zv", "zvd", "zvdd", "ei", "ei2", "ei3", "umzv", "band")
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    add_project_argument(p, optional=True)
+    p.add_argument("--method", choices=METHODS, help="shaper method (without a project)")
+    p.add_argument("--frequency-hz", type=float, action="append", metavar="F",
+                   help="mode frequency in Hz (> 0); repeat for a two-mode shaper")
+    p.add_argument("--damping", type=float, default=None, metavar="Z", help="damping ratio (0 <= Z < 1, default 0)")
+    p.add_argument("--tolerance", type=float, default=None, metavar="PCT",
+                   help="residual vibration tolerance in percent (0 < PCT < 100, default 5)")
+    p.add_argument("--band", type=float, nargs=2, action="append", metavar=("LO", "HI"),
+                   help="frequency band in Hz (LO < HI): the band to cover (method band; repeat for a second "
+                        "mode) or to report the worst vibration over (other methods)")
+    p.add_argument("--cycle-s", type=float, default=None, metavar="S",
+                   help="drive cycle in s (> 0): put the shaper on whole cycles and report the effect")
+    p.add_argument("--remedy", choices=("resolve", "split", "round"), default="resolve",
+                   help="how impulses are put on the drive cycle (default resolve: amplitudes re-solved on the grid)")
+    add_json_argument(p)
+
+
+def _options_given(args) -> list[str]:
+    names = ("method", "frequency_hz", "damping", "tolerance", "band", "cycle_s")
+    return ["--" + n.replace("_", "-") for n in names if getattr(args, n) is not None]
+
+
+def run(args: argparse.Namespace) -> int:
+    from stillhook.errors import ConfigError
+
+    if args.project is not None:
+        given = _options_given(args)
+        if given:
+            raise ConfigError(f"give a project file or shaper options ({', '.join(given)}), not both; "
+                              "the project's [design] and [drive] sections set the method, tolerance and cycle")
+        return _run_project(args)
+    if args.method is None:
+        raise ConfigError("missing --method; allowed: " + ", ".join(METHODS) + " (or give a project file)")
+    from stillhook.shaper_report import shaper_request
+
+    out = shaper_request(method=args.method, freqs_hz=args.frequency_hz or [], bands_hz=args.band or [],
+                         damping_ratio=0.0 if args.damping is None else args.damping,
+                         tolerance_pct=5.0 if args.tolerance is None else args.tolerance,
+                         cycle_s=args.cycle_s, remedy=args.remedy)
+    if args.json:
+        print_json(out)
+        return 0
+    _print_request(out)
+    return 0
+
+
+def _pct(v) -> str:
+    return "-" if v is None else f"{100 * v:.3g} %"
+
+
+def _print_impulses(impulses) -> None:
+    with_delay = impulses and "delay_cycles" in impulses[0]
+    headers = ["#", "time s", "amplitude"] + (["delay cycles"] if with_delay else [])
+    rows = [[i + 1, r["time_s"], r["amplitude"]] + ([r["delay_cycles"]] if with_delay else [])
+            for i, r in enumerate(impulses)]
+    print(format_table(headers, rows, floatfmt=".6g"))
+
+
+def _print_request(out: dict) -> None:
+    print(f"Shaper {out['name']}: {len(out['impulses'])} impulses, duration {out['duration_s']:.6g} s, "
+          f"damping {out['damping_ratio']:g}, tolerance {100 * out['tolerance']:g} %")
+    if out["overshoots_command"]:
+        lo, hi = out["speed_range_factor"]
+        print(f"WARNING: negative impulses: the shaped speed spans {lo:g} to {hi:g} times the commanded speed and "
+              f"acceleration up to {out['command_gain']:g} times; the drive needs that margin.")
+    _print_impulses(out["impulses"])
+    if out["modes"]:
+        print("\nAt the design frequencies:")
+        print(format_table(["freq Hz", "V", "insensitive lo Hz", "insensitive hi Hz", "width (of f)"],
+                           [[m["frequency_hz"], _pct(m["vibration"]), m["insensitive_band_hz"][0],
+                             "unbounded" if m["insensitive_band_hz"][1] is None else m["insensitive_band_hz"][1],
+                             "unbounded" if m["insensitivity_width"] is None else m["insensitivity_width"]]
+                            for m in out["modes"]]))
+    if out["bands"]:
+        print("\nWorst vibration over the bands:")
+        print(format_table(["lo Hz", "hi Hz", "worst V", "at Hz"],
+                           [[b["lo_hz"], b["hi_hz"], _pct(b["worst_vibration"]), b["worst_at_hz"]]
+                            for b in out["bands"]]))
+    if out.get("two_mode"):
+        tm = out["two_mode"]
+        print(f"\nTwo-mode designs at equal coverage: direct {tm['direct']['duration_s']:.6g} s "
+              f"({len(tm['direct']['impulses'])} impulses), convolved {tm['convolved']['duration_s']:.6g} s "
+              f"({len(tm['convolved']['impulses'])} impulses)")
+    dc = out.get("drive_cycle")
+    if dc:
+        print(f"\nDrive cycle {dc['cycle_s']:g} s: vibration at the design frequencies after each remedy")
+        rows = [[k, dc[k]["duration_s"], dc[k]["n_impulses"], ", ".join(_pct(v) for v in dc[k]["vibration_at_design"]),
+                 "-" if dc[k]["worst_in_bands"] is None else ", ".join(_pct(v) for v in dc[k]["worst_in_bands"])]
+                for k in ("original", "round", "split", "resolve")]
+        print(format_table(["remedy", "duration s", "impulses", "V at design", "worst V in bands"], rows))
+        print(f"On the grid ({dc['remedy']}):")
+        _print_impulses(dc["impulses"])
+
+
+def _run_project(args) -> int:
+    from stillhook import CAUTIONS
+    from stillhook.design import design_for_project
+    from stillhook.project import load_project_or_demo
+
+    project = load_project_or_demo(args.project)
+    d = design_for_project(project)
+    out = {"project": project.name, "digest": project.digest, **d.as_dict()}
+    if args.json:
+        print_json(out)
+        return 0
+    print(f"Shaper design for {project.name}: method {d.method}, tolerance {100 * d.tolerance:g} %, "
+          f"drive cycle {d.cycle_s:g} s, damping {d.damping_ratio:g}")
+    print(format_table(["mode", "lowest Hz", "highest Hz"],
+                       [[i + 1, lo, hi] for i, (lo, hi) in enumerate(d.bands_hz)]))
+    print(f"\n{d.reason}.")
+    print(f"\nEnvelope shaper {d.shaper.name}: {d.shaper.n_impulses} impulses, {d.shaper.duration_s:.6g} s"
+          + (f" (convolved alternative {d.convolved.duration_s:.6g} s)" if d.convolved is not None else ""))
+    _print_impulses(d.shaper.as_dict(d.cycle_s)["impulses"])
+    print(f"Worst residual payload sway over the envelope: {_pct(d.worst_ratio)} of unshaped "
+          f"(rope {d.worst_at[0]:.4g} m, payload {d.worst_at[1]:.5g} kg); worst V per mode: "
+          + ", ".join(_pct(v) for v in d.worst_vibration))
+    if d.schedule is not None:
+        s = d.schedule
+        print(f"\nLength schedule ({s.reason}; lookup: nearest row, the longer row on a tie):")
+        print(format_table(["row", "rope m", "serves from m", "to m", "duration s", "impulses", "high mode"],
+                           [[i + 1, float(L), a, b, sh.duration_s, sh.n_impulses, "yes" if h else "no"]
+                            for i, (L, sh, h, (a, b)) in enumerate(zip(s.rope_lengths_m, s.shapers,
+                                                                       s.high_mode_treated, s.row_spans_m(),
+                                                                       strict=True))]))
+        print(f"Worst residual payload sway with the schedule: {_pct(d.schedule_worst_ratio)} of unshaped")
+    print("\nMeets the tolerance over the envelope: " + ("yes" if d.meets_tolerance else "NO"))
+    print("\nCautions:")
+    for c in CAUTIONS:
+        print(f"- {c}")
+    return 0
