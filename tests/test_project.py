@@ -68,3 +68,9 @@ def test_hoist_target_must_be_in_rope_range(tmp_path):
     p.write_text(MINIMAL_TOML + "\n[move]\nhoist_to_m = 12.0\n")
     with pytest.raises(ConfigError, match="hoist_to_m"):
         load_project(p)
+
+
+def test_given_sections_record_what_the_file_holds(tmp_path):
+    p = tmp_path / "with_notch.toml"
+    p.write_text(MINIMAL_TOML + "\n[notch]\n")
+    assert load_project(p).given_sections == ("rig", "drive", "notch")

@@ -17,7 +17,7 @@ from stillhook.shaper_opt import (
     two_mode_shapers,
     worst_over_bands,
 )
-from stillhook.shapers import ei, ei2, insensitive_band_hz, zvd
+from stillhook.shapers import ei, ei2, insensitive_band_hz
 
 
 def dense_worst(shaper, bands, zeta=0.0, n=40001):
@@ -79,7 +79,7 @@ def test_two_mode_direct_never_longer_than_convolved_at_equal_coverage():
 
 def test_multi_band_result_never_longer_than_start():
     bands = [(0.2, 0.24), (0.5, 0.7)]
-    start = zvd(0.22).convolve(zvd(0.6))
+    start = ei2(0.22).convolve(ei2(0.6))
     assert worst_over_bands(start, bands) <= 0.05
     s = multi_band_shaper(bands, 0.05, start=start)
     assert s.duration_s <= start.duration_s and dense_worst(s, bands) <= 0.05 * (1 + 1e-5)

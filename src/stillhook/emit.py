@@ -13,8 +13,8 @@ What gets emitted
     * the rope-length lookup: thresholds in input counts (``[firmware] rope_length_lsb_m`` metres
       per count) that reproduce the schedule's own row rule (see :func:`lookup_thresholds`);
     * the notch cascade, only when asked: ``[firmware] notch = true``, or, with that key unset, when
-      the project's ``[notch]`` section sets a key (an empty ``[notch]`` table cannot be told apart
-      from a missing one). Its coefficients are checked for notch shift (:mod:`stillhook.emit_notch`);
+      the project file has a ``[notch]`` section (an empty ``[notch]`` table asks for the
+      default notch). Its coefficients are checked for notch shift (:mod:`stillhook.emit_notch`);
       when Q15 fails, the whole folder moves to Q31 if ``[firmware] escalate_to_q31`` (default) and
       the format was not forced by the caller, else the emit is refused with the numbers.
     * a RAM check: history buffer + notch state must fit ``[firmware] ram_budget_bytes``.
@@ -248,11 +248,11 @@ def _check_prefix(prefix: str) -> str:
 
 
 def notch_requested(project) -> bool:
-    """``[firmware] notch`` if set, else whether the ``[notch]`` section sets any key."""
+    """``[firmware] notch`` if set, else whether the project file has a ``[notch]`` section (even empty)."""
     flag = project.firmware.get("notch")
     if flag is not None:
         return bool(flag)
-    return any(v is not None for v in project.notch.values())
+    return "notch" in getattr(project, "given_sections", ()) or any(v is not None for v in project.notch.values())
 
 
 def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = None, schedule=None,

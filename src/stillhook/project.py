@@ -111,7 +111,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "ram_budget_bytes": Key("int", default=32768, minimum=64, maximum=1 << 30),
         # rope length input of the schedule lookup: metres per count of the uint32 the drive passes
         "rope_length_lsb_m": Key("number", default=0.001, minimum=1e-6, maximum=1.0),
-        # emit the notch cascade too; unset: emit it when the [notch] section sets a key
+        # emit the notch cascade too; unset: emit it when the file has a [notch] section
         "notch": Key("bool", default=None),
         # largest shift of a notch frequency that coefficient rounding may cause, percent of it
         "max_notch_shift_pct": Key("number", default=1.0, minimum=0.0, min_inclusive=False, maximum=50.0),
@@ -136,6 +136,10 @@ class Project:
         SHA-256 (hex) of the project file's bytes, for provenance in emitted files.
     name : str
         File stem, e.g. ``"demo_project"``.
+    sections : dict
+        Every section with defaults filled in.
+    given_sections : tuple of str
+        The sections the file itself contains (an empty ``[notch]`` table counts).
     """
 
     envelope: Envelope
@@ -147,6 +151,7 @@ class Project:
     digest: str
     name: str = "project"
     sections: dict = field(default_factory=dict, repr=False)
+    given_sections: tuple[str, ...] = ()
 
 
 def _where(section: str, key: str) -> str:
@@ -257,7 +262,8 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
         if not lo <= hoist_to <= hi:
             raise ConfigError(f"[move] hoist_to_m = {hoist_to:g} is outside the rope range; "
                               f"allowed: a value in [{lo:g}, {hi:g}]")
-    return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name, s)
+    return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name, s,
+                   tuple(section for section in SCHEMA if section in data))
 
 
 def load_project(path: str | Path) -> Project:

@@ -132,8 +132,9 @@ def _cover_one(lo: float, hi: float, tol: float, zeta: float) -> tuple[float, li
             choice = None
             for fam in _COVER_FAMILIES:
                 r_lo, r_hi, d1 = _family_region(fam, tol, zeta)
-                if r_lo > 0.0 and b / a <= (r_hi / r_lo) * (1.0 - 1e-9):
-                    f0 = math.sqrt(a * b / (r_lo * r_hi))  # centre the band in the region (geometric)
+                # f0 covers [a, b] when f0 r_lo <= a and f0 r_hi >= b; the highest such f0 is shortest
+                if r_lo > 0.0 and b / r_hi <= a / r_lo:
+                    f0 = a / r_lo
                     if choice is None or d1 / f0 < choice[0]:
                         choice = (d1 / f0, fam, f0)
             if choice is None:
