@@ -18,7 +18,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from stillhook.errors import EmitError
+from stillhook.errors import EmitError, InputFileError
 
 #: Compilers tried in order when $CC is not set.
 COMPILERS = ("cc", "gcc", "clang")
@@ -95,6 +95,13 @@ def _failed(cc, command, status, text, what) -> dict:
             "output": _tail(text), "summary": f"FAILED: {what}"}
 
 
+def check_out_dir(out_dir) -> None:
+    """Refuse early (before any work) an output path that exists and is not a folder."""
+    p = Path(out_dir)
+    if p.exists() and not p.is_dir():
+        raise InputFileError(f"output path {str(p)!r} exists and is not a folder; allowed: a folder or a new path")
+
+
 @dataclass(frozen=True)
 class DemoResult:
     """What the demo did: the study, the self-test, the files written and how long each stage took."""
@@ -129,6 +136,7 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     from stillhook.report import REPORT_GRID, build_study, report_files
 
     t_start = time.perf_counter()
+    check_out_dir(out_dir)
     project = load_demo_project()
     study = build_study(project, grid=grid or REPORT_GRID, progress=progress)
     if study.firmware_files is None:

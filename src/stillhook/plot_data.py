@@ -58,14 +58,7 @@ def sensitivity_data(project, design=None, notch=None, *, n: int = 600) -> dict:
                        "residual_pct": _round(100.0 * design.shaper.residual_vibration(w, zeta), 5)})
         sched = design.schedule
         if sched is not None:
-            from stillhook.sweep_result import schedule_rows
-
-            L0 = env.nominal_rope_length_m
-            row = int(schedule_rows(sched.rope_lengths_m, L0, getattr(sched, "lookup_rule", "nearest")))
-            sh = sched.shapers[row]
-            curves.append({"key": "schedule",
-                           "label": f"schedule row {row + 1} ({float(sched.rope_lengths_m[row]):.3g} m rope)",
-                           "residual_pct": _round(100.0 * sh.residual_vibration(w, zeta), 5)})
+            curves.append(_schedule_row_curve(env, sched, w, zeta))
     if notch is not None:
         curves.append({"key": "notch", "label": "notch",
                        "residual_pct": _round(100.0 * notch.residual_vibration(w, zeta), 5)})
@@ -73,6 +66,25 @@ def sensitivity_data(project, design=None, notch=None, *, n: int = 600) -> dict:
             "frequency_hz": _round(f), "curves": curves, "bands_hz": [list(b) for b in bands],
             "nominal_hz": [m.frequency_hz for m in env.nominal_rig.modes()],
             "tolerance_pct": float(project.design["tolerance_pct"]), "damping_ratio": zeta}
+
+
+def _schedule_row_curve(env, sched, w, zeta) -> dict:
+    """V of the schedule row the nominal rope length selects, with the bands of the rope span it serves."""
+    from dataclasses import replace
+
+    from stillhook.sweep_result import schedule_rows
+
+    rule = getattr(sched, "lookup_rule", "nearest")
+    rows = np.asarray(sched.rope_lengths_m, dtype=float)
+    k = int(schedule_rows(rows, env.nominal_rope_length_m, rule))
+    # the rope lengths that select row k: between the switch points on either side
+    edges = 0.5 * (rows[1:] + rows[:-1]) if rule == "nearest" else rows[1:]
+    lo = rows[0] if k == 0 else float(edges[k - 1])
+    hi = rows[-1] if k == rows.size - 1 else float(edges[k])
+    sub = replace(env, rope_length_range_m=(min(lo, hi), max(lo, hi)), nominal_rope_length_m=None)
+    return {"key": "schedule", "label": f"schedule row {k + 1} (rope {lo:.3g}-{hi:.3g} m)",
+            "residual_pct": _round(100.0 * sched.shapers[k].residual_vibration(w, zeta), 5),
+            "bands_hz": [list(b) for b in sub.mode_bands_hz()]}
 
 
 def _downsample(n: int) -> slice:

@@ -45,6 +45,11 @@ def sensitivity_figure(data: dict):
         for c in data["curves"]:
             ax.plot(f, c["residual_pct"], color=_color(c["key"]), lw=1.4, label=c["label"] if k == 0 else None)
         ax.axhline(tol, color="tab:red", ls="--", lw=1.0, label=f"tolerance {tol:g} %" if k == 0 else None)
+    for c in data["curves"]:
+        # a curve designed for part of the envelope (a schedule row): bars under the zoom mark its bands
+        for j, (lo, hi) in enumerate(c.get("bands_hz", [])):
+            axes[1].hlines(0.12 * tol, lo, hi, color=_color(c["key"]), lw=5,
+                           label=f"bands of {c['label']}" if j == 0 else None)
         ax.set_ylabel("residual sway (% of unshaped)")
     axes[0].set_ylim(0, 105)
     axes[1].set_ylim(0, 3.0 * tol)
@@ -53,6 +58,8 @@ def sensitivity_figure(data: dict):
     axes[1].set_xlim(0, float(f[-1]))
     axes[0].set_title(data["title"] + f" (damping ratio {data['damping_ratio']:g})", loc="left")
     axes[0].legend(loc="upper right", fontsize=8, framealpha=0.9)
+    if any(c.get("bands_hz") for c in data["curves"]):
+        axes[1].legend(loc="upper right", fontsize=8, framealpha=0.9)
     return fig
 
 

@@ -18,7 +18,7 @@ import time
 from dataclasses import dataclass, field
 
 from stillhook import CAUTIONS, __version__
-from stillhook.errors import StillhookError
+from stillhook.errors import ConfigError, StillhookError
 
 #: Grid of the report's envelope sweep (rope lengths x payload masses).
 REPORT_GRID = (21, 21)
@@ -89,6 +89,7 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
         if progress is not None:
             progress(stage)
 
+    check_grid(grid)
     study = Study(project)
     say("design")
     t0 = time.perf_counter()
@@ -111,6 +112,17 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     study.figures = figure_data(study)
     study.timings_s["figures"] = time.perf_counter() - t0
     return study
+
+
+def check_grid(grid) -> tuple[int, int]:
+    """The report's sweep grid as (n_rope, n_payload), each 2 to 401; ConfigError otherwise."""
+    try:
+        n_rope, n_payload = (int(v) for v in grid)
+    except (TypeError, ValueError):
+        raise ConfigError(f"grid = {grid!r}; allowed: two whole numbers (rope lengths, payload masses)") from None
+    if not (2 <= n_rope <= 401 and 2 <= n_payload <= 401):
+        raise ConfigError(f"grid = {n_rope} x {n_payload}; allowed: 2 to 401 points each way")
+    return n_rope, n_payload
 
 
 def figure_data(study: Study) -> dict:
@@ -193,7 +205,9 @@ def report_files(study: Study, *, formats=("png", "svg")) -> dict[str, str | byt
 
 def write_report(project, out_dir, **options):
     """Build the study and write the report folder (all files at once). Returns (study, written paths)."""
+    from stillhook.demo import check_out_dir
     from stillhook.outputs import write_files
 
+    check_out_dir(out_dir)
     study = build_study(project, **options)
     return study, write_files(out_dir, report_files(study))

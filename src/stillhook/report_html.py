@@ -130,7 +130,8 @@ def section_design(study, png) -> str:
             + figure(png.get("sensitivity"), "sensitivity curves",
                      "Residual vibration of each design against the sway frequency. Shaded: the frequency band "
                      "each mode covers over the envelope. Dashed: the tolerance. A design holds where its "
-                     "curve stays under the line across both bands."))
+                     "curve stays under the line across both bands; a schedule row needs to hold only over the "
+                     "narrower bands of the rope lengths it serves (bars under the zoom)."))
 
 
 def render_html(study, png: dict) -> str:
