@@ -139,3 +139,16 @@ def test_mode_above_half_the_drive_rate_is_refused():
             "drive": {"cycle_s": 0.1, "max_speed_m_s": 0.5, "max_accel_m_s2": 0.3}}
     with pytest.raises(DesignError, match="half the drive rate"):
         design_for_project(project_from_dict(data))
+
+
+@pytest.mark.parametrize("rig, n_bands", [
+    ({"hook_mass_kg": 400.0, "rigging_length_m": 0.0, "rope_length_m": [2.0, 8.0], "payload_mass_kg": [0.0, 500.0]}, 1),
+    ({"hook_mass_kg": 400.0, "rigging_length_m": 4.0, "rope_length_m": 5.0, "payload_mass_kg": 60.0}, 2),
+])
+def test_single_mode_and_single_point_envelopes(rig, n_bands):
+    p = project_from_dict({"rig": rig, "drive": {"cycle_s": 0.01, "max_speed_m_s": 0.5, "max_accel_m_s2": 0.3},
+                           "design": {"schedule": False}})
+    d = design_for_project(p)
+    assert len(d.bands_hz) == n_bands and d.shaper.on_grid(0.01) and d.meets_tolerance
+    for lo, hi in d.bands_hz:  # a single point still gets a +-2 % band (robustness to the estimate)
+        assert hi / lo >= 1.04 * (1 - 1e-9)

@@ -3,6 +3,7 @@ model (participations x V) used by the design checked against simulation."""
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -27,11 +28,15 @@ PAYLOAD_RIG = Rig(60.0, 2000.0, 6.0, 1.5)
 LIGHT_RIG = Rig(400.0, 60.0, 5.0, 4.0)
 
 
-def ratio(rig, shaper, move=MOVE):
+@functools.lru_cache(maxsize=32)
+def unshaped_sway(rig):
+    return simulate(rig, MOVE, Ts).residual_payload_sway_m
+
+
+def ratio(rig, shaper):
     g = shaper if shaper.on_grid(Ts) else to_cycle_grid(
         shaper, Ts, remedy="resolve", freqs_hz=[m.frequency_hz for m in rig.modes()][: 1 + (shaper.n_impulses > 5)])
-    unshaped = simulate(rig, move, Ts).residual_payload_sway_m
-    return simulate(rig, g.apply(move, Ts), Ts).residual_payload_sway_m / unshaped
+    return simulate(rig, g.apply(MOVE, Ts), Ts).residual_payload_sway_m / unshaped_sway(rig)
 
 
 def two_mode(maker, rig):

@@ -65,13 +65,13 @@ def test_band_shaper_with_damping_and_on_the_drive_cycle():
 def test_two_mode_direct_never_longer_than_convolved_at_equal_coverage():
     # Convolved vs directly solved multi-mode shapers: Singhose, Crain & Seering, IEE Proc. Control
     # Theory Appl. 144(6):515-520, 1997 (the direct solution is the shorter one).
-    bands = [(0.143, 0.271), (0.322, 1.256)]
-    r = two_mode_shapers(bands, 0.05, 0.002, cycle_s=0.005)
+    bands = [(0.2, 0.3), (0.45, 0.9)]
+    r = two_mode_shapers(bands, 0.05, 0.002, cycle_s=0.01)
     for s in (r.direct, r.convolved):
-        assert s.on_grid(0.005)
+        assert s.on_grid(0.01)
         assert dense_worst(s, bands, 0.002) <= 0.05 * (1 + 1e-5)
     assert r.direct.duration_s <= r.convolved.duration_s
-    d = r.as_dict(0.005)
+    d = r.as_dict(0.01)
     assert set(d) == {"direct", "convolved"} and d["direct"]["impulses"][0]["delay_cycles"] == 0
     # and never longer than the closed-form cover of both bands
     assert r.direct.duration_s <= closed_form_cover(bands, 0.05, 0.002).duration_s
@@ -85,7 +85,7 @@ def test_multi_band_result_never_longer_than_start():
     assert s.duration_s <= start.duration_s and dense_worst(s, bands) <= 0.05 * (1 + 1e-5)
 
 
-@settings(max_examples=8, deadline=None)
+@settings(max_examples=5, deadline=None)
 @given(st.floats(0.1, 2.0), st.floats(1.02, 2.0), st.floats(0.02, 0.1))
 def test_property_band_shaper_meets_tolerance(f_lo, ratio, tol):
     s = band_shaper(f_lo, f_lo * ratio, tol)

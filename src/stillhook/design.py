@@ -2,7 +2,8 @@
 
 Steps (:func:`design_for_project`):
 
-1. Each mode's band (lowest, highest frequency) over the envelope (rope range x payload range).
+1. Each mode's band (lowest, highest frequency) over the envelope (rope range x payload range),
+   at least +-2 % wide (``MIN_BAND_HALF_WIDTH``).
 2. A shaper for the low mode's band alone. Its residual payload sway ratio
    sum_i |P_i| V_i / sum_i |P_i| (see :mod:`stillhook.residual_map`) is evaluated on a dense
    envelope grid. If it stays within the tolerance everywhere the high mode is left untreated,
@@ -17,22 +18,33 @@ Steps (:func:`design_for_project`):
 
 The default project (method "auto") keeps the ratio within the tolerance over the whole envelope;
 ``Design.worst_ratio`` reports the figure and where it occurs.
+
+Notes
+-----
+Residual vibration V: Singer & Seering, ASME JDSMC 112(1):76-82, 1990. Mode shapes and
+participations: Kibble & Berkshire, *Classical Mechanics*, 5th ed., 2004 (see
+:mod:`stillhook.residual_map`). The skip criterion (weighted mean of the V_i within the tolerance)
+and the row spacing are derived here; the design margin is common practice, no source.
 """
 
 from __future__ import annotations
 
 import json
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
 from stillhook.errors import DesignError
 from stillhook.residual_map import mode_shares, residual_ratio
-from stillhook.shapers import CLOSED_FORMS, Shaper, worst_vibration
+from stillhook.shaper_forms import CLOSED_FORMS
+from stillhook.shapers import Shaper, worst_vibration
 
 #: Design to this fraction below the tolerance (fixed-point amplitude rounding, grid sampling).
 DESIGN_MARGIN = 0.02
+#: Every band is at least this wide on each side of its centre (relative): robustness to the
+#: frequency estimate even when the envelope is a single point.
+MIN_BAND_HALF_WIDTH = 0.02
 #: Dense envelope grid (rope lengths x payload masses) for every check.
 CHECK_GRID = (41, 41)
 #: Target spread of the low-mode frequency across the rope lengths one schedule row serves.
@@ -43,7 +55,7 @@ ROW_OVERLAP = 0.05
 #: participation exceeds this multiple of the tolerance.
 _GATE_SHARE_PER_TOL = 2.0
 _CACHE: dict[str, object] = {}
-_CACHE_SIZE = 8
+_CACHE_SIZE = 32
 
 
 @dataclass(frozen=True, eq=False)
@@ -131,9 +143,10 @@ class Schedule:
             "switch_lengths_m": [float(v) for v in self.switch_lengths_m],
             "max_delay_cycles": self.max_delay_cycles,
             "max_impulses": self.max_impulses,
-            "rows": [dict(rope_length_m=float(L), high_mode_treated=bool(h), **s.as_dict(self.cycle_s))
+            "rows": [dict(rope_length_m=float(L), high_mode_treated=None if h is None else bool(h),
+                          **s.as_dict(self.cycle_s))
                      for L, s, h in zip(self.rope_lengths_m, self.shapers,
-                                        self.high_mode_treated or (True,) * len(self.shapers), strict=True)],
+                                        self.high_mode_treated or (None,) * len(self.shapers), strict=True)],
         }
 
 
@@ -176,7 +189,6 @@ class Design:
     worst_vibration: list
     convolved: Shaper | None = None
     schedule_worst_ratio: float | None = None
-    extra: dict = field(default_factory=dict)
 
     @property
     def meets_tolerance(self) -> bool:
@@ -217,7 +229,13 @@ def _sub_envelope(env, rope_lo: float, rope_hi: float):
 
 
 def _bands(env) -> list[tuple[float, float]]:
-    return env.mode_bands_hz(9, 61)
+    """Each mode's band over the envelope, widened to at least +-MIN_BAND_HALF_WIDTH around its
+    geometric centre (a fixed rope length and payload would otherwise give a zero-width band)."""
+    out = []
+    for lo, hi in env.mode_bands_hz(9, 61):
+        c = math.sqrt(lo * hi)
+        out.append((min(lo, c * (1.0 - MIN_BAND_HALF_WIDTH)), max(hi, c * (1.0 + MIN_BAND_HALF_WIDTH))))
+    return out
 
 
 def _closed_form_for_band(method: str, band, tol: float, zeta: float, cycle_s: float) -> Shaper:
@@ -365,6 +383,16 @@ def schedule_ratio(env, schedule: Schedule, rope_lengths_m, payload_masses_kg) -
 # -- public API ---------------------------------------------------------------------------------
 def design_for_project(project) -> Design:
     """Design the envelope shaper (and the schedule when ``[design] schedule`` is true).
+
+    Parameters
+    ----------
+    project : stillhook.project.Project
+        Uses the envelope, ``[drive] cycle_s`` and ``[design]`` tolerance_pct, method, schedule,
+        max_schedule_rows. Results are cached per (envelope, drive, design) within the process.
+
+    Returns
+    -------
+    Design
 
     Raises
     ------

@@ -46,7 +46,7 @@ def _z_and_slope(A: np.ndarray, t: np.ndarray, w: np.ndarray, zeta: float) -> tu
 @lru_cache(maxsize=64)
 def _undamped_start(n_humps: int, tolerance: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Undamped amplitudes, times, zeros and humps (normalized), the continuation's start."""
-    from stillhook.shapers import undamped_hump_amplitudes
+    from stillhook.shaper_forms import undamped_hump_amplitudes
 
     A0 = undamped_hump_amplitudes(n_humps, tolerance)
     t0 = math.pi * np.arange(A0.size)

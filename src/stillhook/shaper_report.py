@@ -13,7 +13,8 @@ import math
 import numpy as np
 
 from stillhook.errors import DesignError
-from stillhook.shapers import CLOSED_FORMS, Shaper, insensitive_band_hz, worst_vibration
+from stillhook.shaper_forms import CLOSED_FORMS
+from stillhook.shapers import Shaper, insensitive_band_hz, worst_vibration
 
 
 def _finite(name: str, value, allowed: str) -> float:

@@ -171,11 +171,13 @@ def spot_checks(project, designs, points, cycle_s: float) -> list[SpotCheck]:
     out = []
     for n, (Ln, mn) in enumerate(points):
         rig = env.rig(Ln, mn)
-        nonlin = {}
+        nonlin, peak = {}, 0.0
         for d in designs:
-            cmd = d.commands[int(d.rows_for(Ln))]
-            nonlin[d.key] = simulate(rig, cmd, cycle_s).residual_payload_sway_m
-        out.append(SpotCheck(float(Ln), float(mn), {d.key: float(lin[d.key][n]) for d in designs}, nonlin))
+            sim = simulate(rig, d.commands[int(d.rows_for(Ln))], cycle_s)
+            nonlin[d.key] = sim.residual_payload_sway_m
+            if d.key == "unshaped":
+                peak = sim.peak_payload_offset_m
+        out.append(SpotCheck(float(Ln), float(mn), {d.key: float(lin[d.key][n]) for d in designs}, nonlin, peak))
     return out
 
 

@@ -59,6 +59,8 @@ def run(args: argparse.Namespace) -> int:
     keys = DESIGN_KEYS if args.designs is None else tuple(k.strip() for k in args.designs.split(",") if k.strip())
     project = load_project_or_demo(args.project)
     show = not args.json and sys.stderr.isatty()
+    if show and any(k in keys for k in ("shaper", "schedule", "notch")):
+        sys.stderr.write("sweep: designing the filters ...\n")
     result = sweep_project(project, grid=tuple(args.grid) if args.grid else DEFAULT_GRID, samples=args.samples,
                            seed=args.seed, distance_m=args.distance, keys=keys, check=not args.no_check,
                            progress=_Progress(sys.stderr) if show else None)
@@ -84,8 +86,9 @@ def run(args: argparse.Namespace) -> int:
                         f"within {100 * tol:g} %"], rows, floatfmt=".3g"))
     if result.spot_checks:
         checked = ", ".join(k for k in result.spot_checks[0].linear_m)
-        print(f"\nAccuracy: exact linear model; at the {len(result.spot_checks)} corners the nonlinear simulator "
-              f"agrees within {100 * result.max_disagreement():.2g} % of the unshaped residual ({checked}).")
+        print(f"\nAccuracy: exact on the linear model. At the {len(result.spot_checks)} corners the nonlinear simulator "
+              f"agrees within {100 * result.max_disagreement():.2g} % of the unshaped residual "
+              f"({100 * result.max_disagreement_of_peak():.2g} % of the peak sway during the move; {checked}).")
     for n in result.notes:
         print(f"Note: {n}")
     print("\nCautions:")

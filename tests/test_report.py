@@ -1,0 +1,22 @@
+"""``stillhook report`` on a project file: the folder it writes and its JSON summary."""
+
+from __future__ import annotations
+
+import json
+
+from stillhook.cli import main
+
+
+def test_report_cli_writes_the_folder(minimal_project_file, tmp_path, capsys):
+    # the smallest project a user can write ([rig] and [drive] only) must give a full report
+    out = tmp_path / "rep"
+    assert main(["report", str(minimal_project_file), "--out", str(out), "--grid", "3", "3", "--no-check",
+                 "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["problems"] == {}
+    assert {"report.html", "report.json", "figures/sensitivity.png", "figures/time_response.svg"} <= set(data["files"])
+    page = (out / "report.html").read_text(encoding="utf-8")
+    assert "minimal" in page and "Firmware files" in page
+    rep = json.loads((out / "report.json").read_text())
+    assert rep["project"] == "minimal" and rep["sweep"]["accuracy"]["spot_checks"] == []
+    assert rep["firmware"]["files"] and rep["selftest"] is None
