@@ -10,11 +10,16 @@
  * Rounding (every place a result is narrowed): round to nearest, ties toward +infinity,
  *   r = floor((acc + 2^(s-1)) / 2^s). The floor division is done without right-shifting a
  *   negative value (implementation-defined in C99 6.5.7), so results are the same on every
- *   compiler.
+ *   compiler. The shaper does not drop what rounding removes: it carries the remainder into the
+ *   next cycle (shk_shaper.h).
  * Saturation: a narrowed result outside the target type's range is clamped to its minimum or
  *   maximum (no wrap-around anywhere).
  *
- * The Python reference model (stillhook.fixedpoint) follows these definitions bit for bit.
+ * Version 2: the shaper became the scatter form with an accumulator ring (int32_t / int64_t
+ * slots instead of a history of samples); tables of version 1 do not fit it.
+ *
+ * The Python reference models (stillhook.fixedpoint, stillhook.fixedpoint_shaper) follow these
+ * definitions bit for bit.
  */
 #ifndef SHK_FIXED_H
 #define SHK_FIXED_H
@@ -22,7 +27,7 @@
 #include <stdint.h>
 
 /* Runtime interface version. Emitted tables check it with #error on mismatch. */
-#define SHK_RUNTIME_VERSION 1
+#define SHK_RUNTIME_VERSION 2
 
 /* Compile-time assertion usable in C99 (a negative array size fails to compile). */
 #define SHK_STATIC_ASSERT(cond, name) typedef char shk_static_assert_##name[(cond) ? 1 : -1]
@@ -54,6 +59,14 @@ static inline int64_t shk_floor_shift64(int64_t v, uint32_t s)
 static inline int64_t shk_round_shift64(int64_t v, uint32_t s)
 {
     return shk_floor_shift64(v + ((int64_t)1 << (s - 1u)), s);
+}
+
+/* floor(v / 2^s), 1 <= s <= 31, exact for every int32_t v, without shifting a negative value:
+ * v + 2^31 is in [0, 2^32) as a uint32_t, and 2^31 / 2^s is a whole number. */
+static inline int32_t shk_floor_shift32(int32_t v, uint32_t s)
+{
+    uint32_t u = (uint32_t)v + UINT32_C(0x80000000);
+    return (int32_t)(u >> s) - (int32_t)(UINT32_C(0x80000000) >> s);
 }
 
 /* Clamp to the int16_t range. */

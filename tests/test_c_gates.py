@@ -9,7 +9,7 @@ import subprocess
 
 import pytest
 
-from stillhook.emit import RUNTIME_FILES, plan_for_project, render_files
+from stillhook.emit import RUNTIME_FILES, RUNTIME_VERSION, plan_for_project, render_files
 from stillhook.outputs import write_files
 from tests.test_emit import two_mode_schedule
 
@@ -123,9 +123,11 @@ def test_version_mismatch_stops_the_build(folders, tmp_path):
     bad = tmp_path / "bad"
     shutil.copytree(folder, bad)
     h = bad / "shk_fixed.h"
-    h.write_text(h.read_text().replace("#define SHK_RUNTIME_VERSION 1", "#define SHK_RUNTIME_VERSION 2"))
+    old = f"#define SHK_RUNTIME_VERSION {RUNTIME_VERSION}\n"
+    assert old in h.read_text()
+    h.write_text(h.read_text().replace(old, f"#define SHK_RUNTIME_VERSION {RUNTIME_VERSION + 1}\n"))
     r = subprocess.run(["gcc", "-std=c99", "-c", f"{plan.prefix}_tables.c"], cwd=bad, capture_output=True, text=True)
-    assert r.returncode != 0 and "runtime version 1" in r.stderr
+    assert r.returncode != 0 and f"runtime version {RUNTIME_VERSION}" in r.stderr
 
 
 def test_static_assert_catches_a_size_the_generator_did_not_make(folders, tmp_path):
@@ -169,3 +171,71 @@ def test_single_row_schedule_builds_and_passes(demo_project, tmp_path):
     assert r.returncode == 0, r.stderr
     run = subprocess.run([str(tmp_path / "selftest")], capture_output=True, text=True)
     assert run.returncode == 0, run.stdout
+
+
+def test_ring_capacity_edge_under_sanitizers(folders, tmp_path):
+    """The worst case the ring's capacity check allows (255 one-impulse rows, sum |A| = 255 x full
+    scale, limit 255.99), driven by the row sequence that piles full-scale samples into one slot, then
+    random full-range samples with a random row every cycle: built WITHOUT -fwrapv and under UBSan, so
+    any signed overflow in the runtime stops the program; outputs must equal the reference's."""
+    import numpy as np
+
+    from stillhook.fixedpoint_shaper import ShaperModel, ShaperTable
+
+    folder, _ = folders["q15"]
+    rng = np.random.default_rng(17)
+    n_rows = 255
+    rows = np.concatenate([254 - np.arange(255), np.arange(300) % 255, 254 - np.arange(255),
+                           rng.integers(0, n_rows, 2000)])
+    body = []
+    expected = []
+    for fmt, F, st in (("q15", 15, "int16_t"), ("q31", 31, "int32_t")):
+        lo, hi = -(2**F), 2**F - 1
+        x = np.concatenate([np.full(255, lo), np.full(300, lo), np.full(255, hi),
+                            rng.integers(lo, hi, 2000, endpoint=True)])
+        table = ShaperTable.from_rows([(np.array([2**F]), np.array([r])) for r in range(n_rows)], fmt)
+        model = ShaperModel(table)
+        expected += [str(v) for v in model.run(x, rows)] + [f"{model.remainder} {model.clipped}"]
+        amp = "INT64_C(2147483648)" if fmt == "q31" else "32768"
+        xs = ", ".join(("INT32_MIN" if v == -(2**31) else str(v)) for v in x)
+        body.append(f"""
+static const {st} x_{fmt}[] = {{{xs}}};
+static {"int64_t" if fmt == "q31" else "int32_t"} amps_{fmt}[N_ROWS], ring_{fmt}[N_ROWS];
+static void run_{fmt}(void)
+{{
+    shk_shaper_{fmt}_table_t t;
+    shk_shaper_{fmt}_t s;
+    uint32_t k;
+    for (k = 0u; k < N_ROWS; ++k) {{
+        amps_{fmt}[k] = {amp};
+    }}
+    t.n_rows = N_ROWS; t.taps_stride = 1u; t.ring_len = N_ROWS; t.n_taps = n_taps;
+    t.amplitudes = amps_{fmt}; t.delays = delays;
+    if (shk_shaper_{fmt}_init(&s, &t, ring_{fmt}, N_ROWS) != SHK_OK) {{
+        printf("init failed\\n");
+        return;
+    }}
+    for (k = 0u; k < N_X; ++k) {{
+        (void)shk_shaper_{fmt}_select(&s, rows[k]);
+        printf("%ld\\n", (long)shk_shaper_{fmt}_step(&s, x_{fmt}[k]));
+    }}
+    printf("%ld %lu\\n", (long)s.remainder, (unsigned long)s.clipped);
+}}
+""")
+    src = "\n".join([
+        "#include <stdio.h>", '#include "shk_shaper.h"', f"#define N_ROWS {n_rows}u", f"#define N_X {rows.size}u",
+        "static uint32_t n_taps[N_ROWS], delays[N_ROWS];",
+        "static const uint32_t rows[N_X] = {" + ", ".join(f"{int(r)}u" for r in rows) + "};",
+        *body,
+        "int main(void)\n{\n    uint32_t k;\n    for (k = 0u; k < N_ROWS; ++k) {\n        n_taps[k] = 1u;\n"
+        "        delays[k] = k;\n    }\n    run_q15();\n    run_q31();\n    return 0;\n}\n"])
+    (tmp_path / "edge.c").write_text(src)
+    flags = ["-std=c99", "-O1", "-fsanitize=address,undefined", "-fno-sanitize-recover=all", f"-I{folder}"]
+    r = subprocess.run(["gcc", *flags, "-o", str(tmp_path / "edge"), str(tmp_path / "edge.c"),
+                        str(folder / "shk_shaper.c")], capture_output=True, text=True)
+    if r.returncode != 0 and "sanitizer" in r.stderr.lower():
+        pytest.skip(f"sanitizer runtime not available: {r.stderr.strip()[:200]}")
+    assert r.returncode == 0, r.stderr
+    run = subprocess.run([str(tmp_path / "edge")], capture_output=True, text=True)
+    assert run.returncode == 0 and "runtime error" not in run.stderr, run.stderr
+    assert run.stdout.split("\n")[:-1] == expected

@@ -7,14 +7,8 @@ import pytest
 
 from stillhook.emit import plan_for_project, render_files
 from stillhook.emit_cffi import load_emitted
-from stillhook.fixedpoint import (
-    BiquadModel,
-    BiquadTable,
-    ShaperModel,
-    ShaperTable,
-    quantize_amplitudes,
-    sample_limits,
-)
+from stillhook.fixedpoint import BiquadModel, BiquadTable, quantize_amplitudes, sample_limits
+from stillhook.fixedpoint_shaper import ShaperModel, ShaperTable, abs_sum_limit
 from stillhook.outputs import write_files
 from tests.test_emit import two_mode_schedule
 
@@ -95,7 +89,29 @@ def test_schedule_switches_while_hoisting(c, prefix):
     assert set(status_c.tolist()) == {0, 1, 2} and len(set(rows_c.tolist())) == plan.shaper.n_rows
     x = np.random.default_rng(5).integers(lo, hi, n, endpoint=True)
     rt.reset()
-    assert np.array_equal(rt.shaper_run(x, rows_c), ShaperModel(plan.shaper).run(x, rows_r))
+    model = ShaperModel(plan.shaper)
+    assert np.array_equal(rt.shaper_run(x, rows_c), model.run(x, rows_r))
+    assert rt.clipped == model.clipped and rt.remainder == model.remainder
+
+
+@pytest.mark.parametrize("prefix", ["ca", "cb"])
+@pytest.mark.parametrize("seed", [1, 2])
+def test_compiled_shaper_ends_at_the_commanded_distance_through_row_switches(c, prefix, seed):
+    """sum of outputs == sum of inputs, exactly, once the ring has drained (proof: shk_shaper.h), with a
+    random row every 1 to 40 cycles during a random move; checked on the C, not only the reference."""
+    plan, rt = c[prefix]
+    F = 15 if plan.fmt == "q15" else 31
+    rng = np.random.default_rng(seed)
+    xmax = (2 ** (F - 1) << F) // plan.shaper.abs_sum  # no output can saturate (see fixedpoint_shaper)
+    n = 3000
+    x = np.concatenate([rng.integers(-xmax, xmax, n, endpoint=True), np.zeros(plan.shaper.ring_len, dtype=np.int64)])
+    rows = np.repeat(rng.integers(0, plan.shaper.n_rows, x.size), rng.integers(1, 41, x.size))[: x.size]
+    assert np.count_nonzero(np.diff(rows[:n])) > 100
+    rt.reset()
+    y = rt.shaper_run(x, rows)
+    assert int(y.sum()) == int(x.sum())
+    assert rt.clipped == 0 and rt.remainder == 0
+    assert np.array_equal(y, ShaperModel(plan.shaper).run(x, rows))
 
 
 @pytest.mark.parametrize("prefix", ["ca", "cb"])
@@ -127,20 +143,29 @@ def test_notch_bit_exact(c, prefix, kind):
 
 
 # -- tables built here, straight into the runtime ------------------------------------------------
-def _c_shaper(ffi, lib, table: ShaperTable, history_len=None):
+def _c_shaper(ffi, lib, table: ShaperTable, ring_len=None):
     f = table.fmt
     keep = {
         "n_taps": ffi.new("uint32_t[]", table.n_taps.tolist()),
         "amps": ffi.new("int32_t[]" if f == "q15" else "int64_t[]", table.amplitudes.ravel().tolist()),
         "delays": ffi.new("uint32_t[]", table.delays.ravel().tolist()),
-        "history": ffi.new("int16_t[]" if f == "q15" else "int32_t[]", table.history_len),
+        "ring": ffi.new("int32_t[]" if f == "q15" else "int64_t[]", table.ring_len),
     }
-    t = ffi.new(f"shk_shaper_{f}_table_t *", [table.n_rows, table.stride, table.history_len, keep["n_taps"],
+    t = ffi.new(f"shk_shaper_{f}_table_t *", [table.n_rows, table.stride, table.ring_len, keep["n_taps"],
                                                keep["amps"], keep["delays"]])
     inst = ffi.new(f"shk_shaper_{f}_t *")
-    status = getattr(lib, f"shk_shaper_{f}_init")(inst, t, keep["history"],
-                                                   table.history_len if history_len is None else history_len)
+    status = getattr(lib, f"shk_shaper_{f}_init")(inst, t, keep["ring"],
+                                                   table.ring_len if ring_len is None else ring_len)
     return status, inst, (t, keep)
+
+
+def _c_steps(lib, fmt, inst, x, rows):
+    step, sel = getattr(lib, f"shk_shaper_{fmt}_step"), getattr(lib, f"shk_shaper_{fmt}_select")
+    y = []
+    for xi, ri in zip(x, rows, strict=True):
+        assert sel(inst, int(ri)) == 0
+        y.append(step(inst, int(xi)))
+    return np.array(y, dtype=np.int64)
 
 
 @pytest.mark.parametrize("fmt", ["q15", "q31"])
@@ -160,15 +185,30 @@ def test_random_tables_with_negative_amplitudes_and_saturation(c, fmt):
     status, inst, keep = _c_shaper(ffi, lib, table)
     assert status == 0
     x = rng.integers(lo, hi, 2000, endpoint=True)
-    r = np.repeat(rng.integers(0, len(rows), 20), 100)
-    step, sel = getattr(lib, f"shk_shaper_{fmt}_step"), getattr(lib, f"shk_shaper_{fmt}_select")
-    y = []
-    for xi, ri in zip(x, r, strict=True):
-        assert sel(inst, int(ri)) == 0
-        y.append(step(inst, int(xi)))
-    ref = ShaperModel(table).run(x, r)
-    assert np.array_equal(np.array(y), ref)
-    assert np.any(ref == hi) or np.any(ref == lo)  # saturation was exercised
+    r = np.repeat(rng.integers(0, len(rows), 200), 10)
+    model = ShaperModel(table)
+    assert np.array_equal(_c_steps(lib, fmt, inst, x, r), model.run(x, r))
+    assert inst.clipped == model.clipped > 0  # saturation was exercised, and counted alike
+    assert inst.remainder == model.remainder
+
+
+@pytest.mark.parametrize("fmt", ["q15", "q31"])
+def test_ring_at_its_capacity_edge_under_adversarial_switching(c, fmt):
+    """255 one-impulse rows, row r delayed r cycles, sum |A| = 255 x full scale (the limit is 255.99):
+    selecting row T - m for sample m piles every full-scale sample into one slot. The C must agree with
+    the reference (exact Python-width integers) bit for bit, remainder and clip count included."""
+    _, rt = c["ca"]
+    F = 15 if fmt == "q15" else 31
+    lo, _ = sample_limits(fmt)
+    table = ShaperTable.from_rows([(np.array([2**F]), np.array([r])) for r in range(255)], fmt)
+    assert table.abs_sum <= abs_sum_limit(fmt, table.stride)
+    status, inst, keep = _c_shaper(rt.ffi, rt.lib, table)
+    assert status == 0
+    x = np.concatenate([np.full(255, lo), np.full(300, lo), np.full(255, -lo - 1)])
+    rows = np.concatenate([254 - np.arange(255), np.arange(300) % 255, 254 - np.arange(255)])
+    model = ShaperModel(table)
+    assert np.array_equal(_c_steps(rt.lib, fmt, inst, x, rows), model.run(x, rows))
+    assert inst.clipped == model.clipped > 0 and inst.remainder == model.remainder
 
 
 def test_bad_tables_and_arguments_are_refused(c):
@@ -176,11 +216,22 @@ def test_bad_tables_and_arguments_are_refused(c):
     ffi, lib = rt.ffi, rt.lib
     good = ShaperTable.from_rows([(np.array([16384, 16384]), np.array([0, 9]))], "q15")
     assert _c_shaper(ffi, lib, good)[0] == 0
-    assert _c_shaper(ffi, lib, good, history_len=good.history_len - 1)[0] == SHK_ERR_ARGUMENT
+    assert _c_shaper(ffi, lib, good, ring_len=good.ring_len - 1)[0] == SHK_ERR_ARGUMENT
     off_by_one = ShaperTable("q15", np.array([[16384, 16383]]), np.array([[0, 9]]), np.array([2]), 10)
     assert _c_shaper(ffi, lib, off_by_one)[0] == SHK_ERR_TABLE  # not unity gain
     late = ShaperTable("q15", good.amplitudes, np.array([[0, 10]]), np.array([2]), 10)
-    assert _c_shaper(ffi, lib, late)[0] == SHK_ERR_TABLE  # delay beyond the history
+    assert _c_shaper(ffi, lib, late)[0] == SHK_ERR_TABLE  # delay beyond the ring
+    for fmt in ("q15", "q31"):
+        # sum |A| over all rows exactly at the ring's capacity, and one step above it (2 units: sum |A|
+        # has the parity of sum A), built by hand because the generator refuses the second
+        F = 15 if fmt == "q15" else 31
+        limit = abs_sum_limit(fmt, 3)
+        assert limit == 256 * 2**F - 2
+        for c, want in ((2 ** (F - 1) - 1, 0), (2 ** (F - 1), SHK_ERR_TABLE)):
+            amps = np.array([[2**F, 0, 0]] * 254 + [[2**F, c, -c]], dtype=np.int64)
+            t = ShaperTable(fmt, amps, np.tile([0, 1, 2], (255, 1)), np.full(255, 3), 3)
+            assert t.abs_sum == limit + (2 if want else 0)
+            assert _c_shaper(ffi, lib, t)[0] == want
     status, inst, keep = _c_shaper(ffi, lib, good)
     assert lib.shk_shaper_q15_select(inst, 1) == SHK_ERR_ARGUMENT and inst.row == 0
     th = ffi.new("uint32_t[]", [3000, 3000])

@@ -79,7 +79,10 @@ def test_manifest_holds_the_required_keys_in_rope_order(demo_project, sched):
         assert sum(r["amplitudes"]) == 2**15
     assert m["input_digest_sha256"] == demo_project.digest and m["tool_version"] == __version__
     assert "notch" not in m  # the demo has no [notch] section
-    assert m["sizes"]["ram_bytes"] == m["history_len"] * 2
+    # the accumulator ring: one int32_t slot per cycle of the longest delay (Q15)
+    assert m["ring_len"] == 1 + max(max(r["delays_cycles"]) for r in rows)
+    assert m["sizes"]["ram_bytes"] == m["ring_len"] * 4 == m["sizes"]["ring_bytes"]
+    assert m["amplitude_abs_sum"] <= m["amplitude_abs_sum_limit"]
     assert m["files"] == sorted(files)
     assert m["cautions"] == list(CAUTIONS)
 
@@ -90,6 +93,8 @@ def test_tables_header_carries_provenance_and_cautions_without_timestamps(demo_p
     for needle in (demo_project.digest, f"stillhook {__version__}", "0.005 s", "Q15", "1.2 .. 9.5 m", *CAUTIONS):
         assert needle in h
     assert "#error" in h and "SHK_RUNTIME_VERSION" in h
+    assert f'#define TROLLEY_INPUT_DIGEST "{demo_project.digest}"\n' in h
+    assert f'#define TROLLEY_TOOL_VERSION "{__version__}"\n' in h
     assert not any(w in "".join(files.values()).lower() for w in ("2024-", "2025-", "2026-", "utc", "generated on"))
     assert {"trolley_tables.c", "trolley_selftest.c", "manifest.json", *RUNTIME_FILES} <= set(files)
 
@@ -146,6 +151,13 @@ def test_q15_notch_escalates_to_q31_or_is_refused_with_numbers(sched):
     no_escalation = project_from_dict(_demo_dict(firmware={"notch": True, "escalate_to_q31": False}))
     with pytest.raises(EmitError, match="escalate_to_q31"):
         plan_for_project(no_escalation, schedule=sched)
+
+
+def test_schedule_too_heavy_for_the_accumulator_ring_is_refused(demo_project):
+    # 300 rows of positive amplitudes: under arbitrary switching one slot can gather a part of each,
+    # 300 x full scale, beyond the Q15 ring's 256 (stillhook.fixedpoint_shaper.abs_sum_limit)
+    with pytest.raises(EmitError, match=r"sum \|A\| = 300 x full scale over 300 rows .* at most 255\.99"):
+        plan_for_project(demo_project, schedule=two_mode_schedule(demo_project, 300))
 
 
 def test_thresholds_follow_the_row_rules():

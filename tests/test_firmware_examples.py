@@ -124,12 +124,13 @@ def test_make_check_runs_host_task_bit_exact(host_build):
 
 @needs_host
 def test_host_output_follows_the_shaper_definition(host_build):
-    """Independent of stillhook.fixedpoint: the impulse sum in floating point, rows from the documented rule.
+    """Independent of stillhook's reference: the impulse sum in floating point, rows from the documented rule.
 
-    Shaper output y[n] = sum_i A_i x[n - d_i] (Singer & Seering, "Preshaping command inputs to reduce
-    system vibration", ASME JDSMC 112(1), 1990), scaled by 2^-F and rounded to nearest once, so the
-    integer output is within 1/2 count of the exact sum (round to nearest: Graham, Knuth & Patashnik,
-    Concrete Mathematics, 2nd ed., 1994, sec. 3.1).
+    Shaper output = impulse convolution (Singer & Seering, "Preshaping command inputs to reduce system
+    vibration", ASME JDSMC 112(1), 1990), each command sample spread with the row selected when it arrives
+    (the runtime's scatter form, shk_shaper.h), scaled by 2^-F. The runtime carries its rounding remainder,
+    so each output is within 1 + (a + b) 2^(S-1-F) count of the exact sum (a, b: delayed parts leaving and
+    arriving that cycle; S = 7), and the outputs add up EXACTLY to the (creep-limited) commands.
     """
     build, _ = host_build
     m = json.loads((build / "emit" / "manifest.json").read_text())
@@ -149,22 +150,27 @@ def test_host_output_follows_the_shaper_definition(host_build):
     else:  # longest row at or below L
         want_rows = np.searchsorted(row_m, L + 1e-9 * li["lsb_m"], side="right") - 1
     assert np.array_equal(rows, want_rows)
+    assert len(set(rows.tolist())) >= 2  # the recording switches rows while the trolley moves
 
     F = {"q15": 15, "q31": 31}[m["format"]]
-    x = np.where(status != 0, np.clip(speed, -rec.CREEP_LIMIT, rec.CREEP_LIMIT), speed).astype(float)
-    x *= 2.0 ** (F - 15)
-    exact = np.zeros(speed.size)
-    for n in range(speed.size):
+    x = np.where(status != 0, np.clip(speed, -rec.CREEP_LIMIT, rec.CREEP_LIMIT), speed) * 2 ** (F - 15)
+    exact = np.zeros(speed.size + m["ring_len"])
+    a_leaving = np.zeros(speed.size + m["ring_len"])
+    b_arriving = np.zeros(speed.size + m["ring_len"])
+    for n in np.flatnonzero(x):  # zero samples add nothing
         r = m["shaper_rows"][rows[n]]
-        for a, d in zip(r["amplitudes"], r["delays_cycles"], strict=True):
-            if n - d >= 0:
-                exact[n] += a * x[n - d]
-    exact /= 2.0**F
-    assert np.max(np.abs(y - exact)) <= 0.5
-    # rest to rest: once the command has been zero for a whole history, the output is exactly zero
+        d = np.array(r["delays_cycles"])
+        exact[n + d] += np.array(r["amplitudes"], dtype=float) * float(x[n]) / 2.0**F
+        a_leaving[n] += np.count_nonzero(d)
+        b_arriving[n + d[d > 0]] += 1
+    exact, bound = exact[: speed.size], 1 + (a_leaving + b_arriving)[: speed.size] * 2.0 ** (7 - 1 - F)
+    assert np.all(np.abs(y - exact) < bound + 1e-6)
+    # the field property: the shaped command travels exactly the commanded distance, row switch included
+    assert int(y.sum()) == int(x.sum())
+    # rest to rest: once the command has been zero for the whole ring, the output is exactly zero
     last_move = np.flatnonzero(speed)[-1]
-    assert last_move + m["history_len"] < speed.size
-    assert np.all(y[last_move + m["history_len"]:] == 0)
+    assert last_move + m["ring_len"] < speed.size
+    assert np.all(y[last_move + m["ring_len"]:] == 0)
 
 
 @needs_host
@@ -216,7 +222,16 @@ def test_tables_carry_the_project_digest(host_build):
     build, _ = host_build
     header = (build / "emit" / "sway_tables.h").read_text()
     want = hashlib.sha256(demo_project_text().encode("utf-8")).hexdigest()
-    assert want in header
+    assert f'#define SWAY_INPUT_DIGEST "{want}"\n' in header  # firmware can log it, the script reads it
+    # the script reads the macro: a header whose digest macro was changed is caught
+    forged = build / "emit_forged"
+    shutil.copytree(build / "emit", forged)
+    h = forged / "sway_tables.h"
+    h.write_text(h.read_text().replace(f'SWAY_INPUT_DIGEST "{want}"', f'SWAY_INPUT_DIGEST "{want[::-1]}"'))
+    r = subprocess.run([sys.executable, str(FW / "scripts" / "check_provenance.py"), "--emit-dir", str(forged),
+                        "--project", "demo"], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 1
+    assert f"provenance: MISMATCH: sway_tables.h digest {want[::-1]} is not the project's {want}" in r.stderr
     # one re-emit (about as long as the emit itself): every file must match except the one edited by hand
     edited = build / "emit_edited"
     shutil.copytree(build / "emit", edited)
@@ -251,10 +266,10 @@ def test_cortex_m_output_identical_and_figures_reported(cortex_build):
         assert int(taps) == len(m["shaper_rows"][int(row)]["amplitudes"])
         assert 0 < float(instr) < 100 * int(taps) + 200
     assert int(_report(text, "stack used bytes")) < 16 * 1024
-    # the emitter's RAM figure matches what the compiler allocated: history + instance struct (+ padding)
+    # the emitter's RAM figure matches what the compiler allocated: ring + instance struct (+ padding)
     sizes = m["sizes"]
     ram = int(re.search(r"^caller-owned RAM .*: (\d+)$", text, re.MULTILINE).group(1))
-    assert 0 <= ram - (sizes["history_bytes"] + sizes["instance_bytes_32bit"]) < 4
+    assert 0 <= ram - (sizes["ring_bytes"] + sizes["instance_bytes_32bit"]) < 8
     # const tables: the emitter's table bytes + the two descriptor structs (24 + 16 bytes, 32-bit pointers)
     tables = int(re.search(r"^runtime \+ tables flash: \d+ \(code \d+, const tables (\d+)\)$", text,
                            re.MULTILINE).group(1))

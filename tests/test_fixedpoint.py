@@ -15,8 +15,6 @@ from stillhook.fixedpoint import (
     BiquadModel,
     BiquadTable,
     ScheduleTable,
-    ShaperModel,
-    ShaperTable,
     quantize_amplitudes,
     round_shift,
     sample_limits,
@@ -104,43 +102,6 @@ def test_closed_form_shapers_quantize_exactly():
 def test_bad_amplitudes_are_refused(amps, words):
     with pytest.raises(EmitError, match=words):
         quantize_amplitudes(amps, "q15")
-
-
-def _table(fmt, rows):
-    return ShaperTable.from_rows([(quantize_amplitudes(a, fmt), np.array(d)) for a, d in rows], fmt)
-
-
-def _direct_shaper(table: ShaperTable, x, rows):
-    """y[n] = sat(floor((sum_i A x[n-d] + 2^(F-1)) / 2^F)) in exact Python integers (the definition)."""
-    F = 15 if table.fmt == "q15" else 31
-    lo, hi = sample_limits(table.fmt)
-    out = []
-    for n, r in enumerate(rows):
-        acc = sum(int(a) * (int(x[n - d]) if n - d >= 0 else 0)
-                  for a, d in zip(table.amplitudes[r], table.delays[r], strict=True))
-        out.append(min(max(textbook_round(acc, F), lo), hi))
-    return out
-
-
-@pytest.mark.parametrize("fmt", ["q15", "q31"])
-def test_shaper_model_is_the_exact_impulse_sum_and_carries_state(fmt):
-    rng = np.random.default_rng(7)
-    lo, hi = sample_limits(fmt)
-    t = _table(fmt, [([0.3, 0.45, 0.25], [0, 5, 11]), ([1.0, -1.0, 1.0], [0, 2, 4]), ([1.0], [0])])
-    x = rng.integers(lo, hi, 400, endpoint=True)
-    x[:50] = hi  # full-scale step
-    rows = np.repeat(rng.integers(0, 3, 40), 10)
-    whole = ShaperModel(t).run(x, rows)
-    assert whole.tolist() == _direct_shaper(t, x, rows)
-    m = ShaperModel(t)  # the same input in pieces split at odd points
-    parts = [m.run(x[a:b], rows[a:b]) for a, b in ((0, 1), (1, 38), (38, 201), (201, 400))]
-    assert np.array_equal(np.concatenate(parts), whole)
-
-
-def test_shaper_unity_gain_holds_a_constant_exactly():
-    t = _table("q15", [([1 / 3, 1 / 3, 1 / 3], [0, 3, 7])])
-    y = ShaperModel(t).run(np.full(30, -12345), 0)
-    assert np.all(y[7:] == -12345)
 
 
 def test_schedule_lookup_counts_thresholds_and_clamps():

@@ -22,7 +22,7 @@ shk_status_t travel_task_init(travel_task_t *task)
     if (st != SHK_OK) {
         return st;
     }
-    return TRAVEL_INIT(&task->shaper, &sway_shaper_table, task->history, SWAY_HISTORY_LEN);
+    return TRAVEL_INIT(&task->shaper, &sway_shaper_table, task->ring, SWAY_RING_LEN);
 }
 
 void travel_task_cycle(travel_task_t *task, int16_t speed_ref, uint32_t rope_length,
@@ -40,7 +40,8 @@ void travel_task_cycle(travel_task_t *task, int16_t speed_ref, uint32_t rope_len
             v = -TRAVEL_CREEP_LIMIT;
         }
     }
-    /* 2. switch rows between steps: every row has unity gain and shares the history */
+    /* 2. switch rows between steps: the new row shapes the samples from now on; samples already in
+     *    the ring keep the row they arrived with, so the travelled distance stays exact */
     (void)TRAVEL_SELECT(&task->shaper, row);
     /* 3. one shaper step per drive cycle */
     result->speed_out = TRAVEL_STEP(&task->shaper, TRAVEL_TO_SAMPLE(v));

@@ -5,7 +5,7 @@
  * folder `stillhook emit` writes: sway_tables.h (tables, sizes, format) and the shk_* runtime.
  *
  *   start-up (once, before the cyclic task is enabled):
- *       travel_task_init(&task)         checks the tables, zeroes the history, selects row 0
+ *       travel_task_init(&task)         checks the tables, empties the ring, selects row 0
  *   every drive cycle (fixed rate SWAY_CYCLE_NS; one call per cycle, never skipped):
  *       travel_task_cycle(&task, speed_ref, rope_length, &result)
  *
@@ -33,9 +33,11 @@
 
 #if defined(SWAY_FORMAT_Q15)
 typedef int16_t travel_sample_t;
+typedef int32_t travel_slot_t;
 typedef shk_shaper_q15_t travel_shaper_t;
 #elif defined(SWAY_FORMAT_Q31)
 typedef int32_t travel_sample_t;
+typedef int64_t travel_slot_t;
 typedef shk_shaper_q31_t travel_shaper_t;
 #else
 #error "sway_tables.h defines neither SWAY_FORMAT_Q15 nor SWAY_FORMAT_Q31: emit with --prefix sway"
@@ -47,7 +49,7 @@ typedef shk_shaper_q31_t travel_shaper_t;
 
 typedef struct {
     travel_shaper_t shaper;
-    travel_sample_t history[SWAY_HISTORY_LEN]; /* caller-owned RAM the runtime works in */
+    travel_slot_t ring[SWAY_RING_LEN]; /* caller-owned accumulator ring the runtime works in */
 } travel_task_t;
 
 typedef struct {

@@ -68,7 +68,7 @@ static int header_is(const char *line, const char *header)
 /* The replay: init once, then one travel_task_cycle per recorded row. Returns the exit status. */
 static int replay(FILE *rec, FILE *exp, FILE *out, char **names)
 {
-    static travel_task_t task; /* static: the history buffer is SWAY_HISTORY_BYTES */
+    static travel_task_t task; /* static: the accumulator ring is SWAY_RING_BYTES */
     char in_line[LINE_MAX_CHARS];
     char exp_line[LINE_MAX_CHARS];
     unsigned long cycle = 0u;

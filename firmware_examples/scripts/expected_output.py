@@ -1,9 +1,10 @@
 """Expected shaped output of the firmware examples, from the Python integer reference.
 
 Reads the emitted folder's manifest.json (integer shaper rows, rope-length lookup, format) and a
-recording CSV, runs the same cycle as common/travel_task.c through stillhook.fixedpoint
-(ScheduleTable.lookup, the creep limit outside the envelope, ShaperModel.run), and writes the
-shaped-output CSV the C programs must reproduce byte for byte.
+recording CSV, runs the same cycle as common/travel_task.c through the integer reference
+(stillhook.fixedpoint.ScheduleTable.lookup, the creep limit outside the envelope,
+stillhook.fixedpoint_shaper.ShaperModel.run), and writes the shaped-output CSV the C programs must
+reproduce byte for byte.
 
 Usage: python expected_output.py --manifest DIR/manifest.json --recording REC.csv --out EXPECTED.csv
 """
@@ -17,7 +18,8 @@ from pathlib import Path
 import numpy as np
 from recording import CREEP_LIMIT, format_output, read_recording
 
-from stillhook.fixedpoint import STATUS_OK, ScheduleTable, ShaperModel, ShaperTable
+from stillhook.fixedpoint import STATUS_OK, ScheduleTable
+from stillhook.fixedpoint_shaper import ShaperModel, ShaperTable
 
 
 def tables_from_manifest(manifest: dict) -> tuple[ShaperTable, ScheduleTable]:
@@ -26,8 +28,8 @@ def tables_from_manifest(manifest: dict) -> tuple[ShaperTable, ScheduleTable]:
     rows = [(np.asarray(r["amplitudes"], dtype=np.int64), np.asarray(r["delays_cycles"], dtype=np.int64))
             for r in manifest["shaper_rows"]]
     shaper = ShaperTable.from_rows(rows, fmt)
-    if shaper.history_len != manifest["history_len"]:
-        raise ValueError(f"manifest history_len {manifest['history_len']} != {shaper.history_len} from its rows")
+    if shaper.ring_len != manifest["ring_len"]:
+        raise ValueError(f"manifest ring_len {manifest['ring_len']} != {shaper.ring_len} from its rows")
     li = manifest["rope_length_input"]
     schedule = ScheduleTable(np.asarray(li["thresholds_counts"], dtype=np.int64), int(li["min_counts"]),
                              int(li["max_counts"]), float(li["lsb_m"]))

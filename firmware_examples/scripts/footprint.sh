@@ -6,7 +6,7 @@
 # FOOTPRINT_O is the runtime and the emitted tables partially linked with --gc-sections from the
 # entry points the task uses, so it holds exactly the code and const tables a drive build links.
 # TASK_O is the example's glue (common/travel_task.c). FW_ELF is the whole test image; its
-# fw_task symbol is the caller-owned RAM (instance struct + history buffer).
+# fw_task symbol is the caller-owned RAM (instance struct + accumulator ring).
 set -eu
 CROSS="$1"; FOOT="$2"; TASK="$3"; ELF="$4"
 
@@ -38,6 +38,6 @@ buffers=$("${CROSS}nm" -S "$ELF" | {
 echo "== footprint (bytes)"
 echo "runtime + tables flash: $foot_flash (code $((foot_flash - tables)), const tables $tables)"
 echo "runtime + tables static RAM: $foot_ram"
-echo "caller-owned RAM (instance struct + history buffer, fw_task): ${buffers:-?}"
+echo "caller-owned RAM (instance struct + accumulator ring, fw_task): ${buffers:-?}"
 echo "task glue flash (travel_task.o): $task_flash"
 echo "whole test image: flash $elf_flash, static RAM $elf_ram (includes the compiled-in recording, reporting and start-up)"

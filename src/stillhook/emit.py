@@ -17,11 +17,14 @@ What gets emitted
       default notch). Its coefficients are checked for notch shift (:mod:`stillhook.emit_notch`);
       when Q15 fails, the whole folder moves to Q31 if ``[firmware] escalate_to_q31`` (default) and
       the format was not forced by the caller, else the emit is refused with the numbers.
-    * a RAM check: history buffer + notch state must fit ``[firmware] ram_budget_bytes``.
+    * a RAM check: accumulator ring + notch state must fit ``[firmware] ram_budget_bytes``;
+    * an accumulator check: the rows' amplitudes, all rows together, must fit the ring's slots
+      whatever the row switches (:func:`stillhook.fixedpoint_shaper.abs_sum_limit`).
 
 Notes
 -----
-Unity-gain amplitude rounding and the runtime contracts: :mod:`stillhook.fixedpoint`.
+Unity-gain amplitude rounding and the runtime contracts: :mod:`stillhook.fixedpoint` and
+:mod:`stillhook.fixedpoint_shaper` (scatter-form shaper, exact distance across row switches).
 """
 
 from __future__ import annotations
@@ -35,21 +38,16 @@ import numpy as np
 
 from stillhook import CAUTIONS, __version__
 from stillhook.errors import ConfigError, EmitError
-from stillhook.fixedpoint import (
-    FRACTION_BITS,
-    SAMPLE_BYTES,
-    ScheduleTable,
-    ShaperTable,
-    quantize_amplitudes,
-)
+from stillhook.fixedpoint import FRACTION_BITS, ScheduleTable, quantize_amplitudes
+from stillhook.fixedpoint_shaper import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
 
 #: Runtime files copied verbatim from codegen/ into every emitted folder.
 RUNTIME_FILES = ("shk_fixed.h", "shk_schedule.h", "shk_schedule.c", "shk_shaper.h", "shk_shaper.c",
                  "shk_biquad.h", "shk_biquad.c")
 #: Must equal SHK_RUNTIME_VERSION in codegen/shk_fixed.h; the tables #error on a mismatch.
-RUNTIME_VERSION = 1
+RUNTIME_VERSION = 2
 #: Bytes of the runtime's instance structs on a 32-bit target (pointers 4 bytes): shaper, notch.
-INSTANCE_BYTES_32BIT = {"shaper": 16, "notch": 8}
+INSTANCE_BYTES_32BIT = {"shaper": 24, "notch": 8}
 #: Lookup rules a schedule may use (see lookup_thresholds).
 LOOKUP_RULES = ("nearest", "at_or_below")
 
@@ -180,11 +178,12 @@ class EmitPlan:
         """RAM (caller buffers) and flash (const tables) in bytes."""
         notch_state = self.notch.table.state_bytes() if self.notch is not None else 0
         notch_flash = self.notch.table.flash_bytes() if self.notch is not None else 0
-        ram = self.shaper.history_bytes() + notch_state
+        ram = self.shaper.ring_bytes() + notch_state
         instances = INSTANCE_BYTES_32BIT["shaper"] + (INSTANCE_BYTES_32BIT["notch"] if self.notch else 0)
         return {
-            "history_samples": self.shaper.history_len,
-            "history_bytes": self.shaper.history_bytes(),
+            "ring_slots": self.shaper.ring_len,
+            "ring_slot_bytes": SLOT_BYTES[self.fmt],
+            "ring_bytes": self.shaper.ring_bytes(),
             "notch_state_bytes": notch_state,
             "ram_bytes": ram,
             "instance_bytes_32bit": instances,
@@ -217,7 +216,14 @@ class EmitPlan:
                 "type": "uint32", "lsb_m": s.lsb_m, "min_counts": s.length_min, "max_counts": s.length_max,
                 "lookup_rule": self.lookup_rule, "thresholds_counts": [int(t) for t in s.thresholds]},
             "shaper_rows": [r.as_dict() for r in self.rows],
-            "history_len": self.shaper.history_len,
+            "shaper_form": "scatter: each sample spread with the row selected at its arrival; "
+                           "rounding remainder carried (exact distance across row switches)",
+            "ring_len": self.shaper.ring_len,
+            "ring_slot_bytes": SLOT_BYTES[self.fmt],
+            "slot_shift": SLOT_SHIFT,
+            "amplitude_abs_sum": self.shaper.abs_sum,
+            "amplitude_abs_sum_limit": abs_sum_limit(self.fmt, self.shaper.stride),
+            "row_switch_transient_max": switch_transient(self.shaper),
         }
         if self.notch is not None:
             t = self.notch.table
@@ -344,8 +350,8 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
     if sizes["ram_bytes"] > plan.ram_budget_bytes:
         longest = max(rows, key=lambda r: r.delays_cycles[-1])
         raise EmitError(
-            f"the design needs {sizes['ram_bytes']} bytes of RAM (history {table.history_len} samples x "
-            f"{SAMPLE_BYTES[fmt_out]} bytes = {sizes['history_bytes']} for the longest shaper, "
+            f"the design needs {sizes['ram_bytes']} bytes of RAM (accumulator ring {table.ring_len} slots x "
+            f"{SLOT_BYTES[fmt_out]} bytes = {sizes['ring_bytes']} for the longest shaper, "
             f"{longest.delays_cycles[-1] * cycle_s:g} s at {longest.rope_length_m:g} m rope, + "
             f"{sizes['notch_state_bytes']} notch state) but [firmware] ram_budget_bytes = "
             f"{plan.ram_budget_bytes}; allowed: a budget of at least {sizes['ram_bytes']} bytes")
@@ -354,7 +360,8 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
 
 def render_files(plan: EmitPlan) -> dict[str, str]:
     """``{file name: text}`` of the whole folder, sorted by name, manifest.json included."""
-    from stillhook.emit_c import render_readme, render_selftest, render_tables_c, render_tables_h
+    from stillhook.emit_c import render_readme, render_tables_c, render_tables_h
+    from stillhook.emit_selftest import render_selftest
     from stillhook.outputs import to_json
 
     p = plan.prefix

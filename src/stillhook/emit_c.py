@@ -1,4 +1,5 @@
-"""C text of the emitted tables, self-test and README (pure functions of an EmitPlan).
+"""C text of the emitted tables and README (pure functions of an EmitPlan); the self-test is in
+:mod:`stillhook.emit_selftest`.
 
 No timestamps or paths go into the text, so the same plan always gives the same bytes.
 """
@@ -6,11 +7,13 @@ No timestamps or paths go into the text, so the same plan always gives the same 
 from __future__ import annotations
 
 from stillhook import CAUTIONS, __version__
-from stillhook.emit_vectors import SEGMENT_CYCLES, selftest_vectors
+from stillhook.errors import EmitError
 from stillhook.fixedpoint import FRACTION_BITS, MAX_POST_SHIFT
+from stillhook.fixedpoint_shaper import switch_transient
 
 _SAMPLE_T = {"q15": "int16_t", "q31": "int32_t"}
 _AMP_T = {"q15": "int32_t", "q31": "int64_t"}
+_SLOT_T = {"q15": "int32_t", "q31": "int64_t"}
 
 
 def _lit(v: int, ctype: str) -> str:
@@ -28,6 +31,13 @@ def _array(values, ctype: str, per_line: int = 10, indent: str = "    ") -> str:
     items = [_lit(v, ctype) for v in values]
     lines = [indent + ", ".join(items[i:i + per_line]) + "," for i in range(0, len(items), per_line)]
     return "\n".join(lines)
+
+
+def _c_string(text: str) -> str:
+    """A C string literal (ASCII printable; backslash and quote escaped)."""
+    if not all(32 <= ord(ch) < 127 for ch in text):
+        raise EmitError(f"{text!r} cannot go into a C string literal; allowed: printable ASCII")
+    return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
 
 
 def _guard(plan) -> str:
@@ -65,8 +75,17 @@ def _provenance(plan, title: str) -> list[str]:
         lines.append(f"Notch: {t.n_stages} biquad stages, {t.fmt.upper()}, post_shift {t.post_shift}, at "
                      + ", ".join(f"{f:.6g} Hz" for f in plan.notch.freqs_hz) + ".")
     lines += [
-        f"RAM (caller buffers): {sz['ram_bytes']} bytes = history {sz['history_samples']} samples "
-        f"({sz['history_bytes']} bytes) + notch state {sz['notch_state_bytes']} bytes; instance structs "
+        "Shaper form: scatter - each speed sample is spread, with the row selected when it arrives, into a",
+        "ring of future-output accumulators, and the rounding remainder is carried from cycle to cycle: the",
+        "shaped move ends at exactly the commanded distance (to the LSB) whatever row switches happen, as",
+        "long as no output saturates (contract: shk_shaper.h). Samples already in flight keep their row, so a",
+        f"switch to a neighbouring row while the command holds steady moves the shaped command by up to "
+        f"{100 * switch_transient(plan.shaper):.3g} % of it",
+        f"for at most {plan.shaper.ring_len - 1} cycles (faster toward shorter rope, slower toward longer), "
+        "then it settles back.",
+        f"RAM (caller buffers): {sz['ram_bytes']} bytes = accumulator ring {sz['ring_slots']} slots x "
+        f"{sz['ring_slot_bytes']} bytes ({sz['ring_bytes']} bytes) + notch state {sz['notch_state_bytes']} bytes; "
+        "instance structs "
         f"{sz['instance_bytes_32bit']} bytes more on a 32-bit target. Flash (tables): {sz['flash_table_bytes']} bytes.",
         "",
         "CAUTIONS",
@@ -82,14 +101,14 @@ def _comment(lines: list[str]) -> str:
 def render_tables_h(plan) -> str:
     """``<prefix>_tables.h``: provenance, sizes, the version check and the table declarations."""
     p, f = plan.prefix, plan.fmt
-    st, amp_t = _SAMPLE_T[f], _AMP_T[f]
+    amp_t = _AMP_T[f]
     sh, sz = plan.shaper, plan.sizes()
     usage = [
         "",
         "Use (one instance per drive axis; every buffer is yours, nothing is allocated):",
-        f"    static {st} history[{_m(plan, 'HISTORY_LEN')}];",
+        f"    static {_SLOT_T[f]} ring[{_m(plan, 'RING_LEN')}];   ({_m(plan, 'RING_BYTES')} bytes)",
         f"    static shk_shaper_{f}_t shaper;",
-        f"    if (shk_shaper_{f}_init(&shaper, &{p}_shaper_table, history, {_m(plan, 'HISTORY_LEN')}) != SHK_OK) "
+        f"    if (shk_shaper_{f}_init(&shaper, &{p}_shaper_table, ring, {_m(plan, 'RING_LEN')}) != SHK_OK) "
         "{ fault }",
         "    every drive cycle:",
         "        uint32_t row;",
@@ -97,6 +116,7 @@ def render_tables_h(plan) -> str:
         "        if (st != SHK_OK) { outside the designed envelope: warn, slow down or stop }",
         f"        (void)shk_shaper_{f}_select(&shaper, row);",
         f"        speed_out = shk_shaper_{f}_step(&shaper, speed_in);   (fractions of full-scale speed)",
+        "    (shaper.clipped != 0: an output saturated, the exact-distance guarantee no longer holds)",
     ]
     out = [_comment(_provenance(plan, f"{p}_tables.h") + usage),
            f"#ifndef {_guard(plan)}", f"#define {_guard(plan)}", "",
@@ -107,12 +127,15 @@ def render_tables_h(plan) -> str:
            f'#error "{p} tables need stillhook runtime version {plan_runtime_version()}: copy the shk_* files '
            'emitted with them"',
            "#endif", "",
+           f"#define {_m(plan, 'INPUT_DIGEST')} {_c_string(plan.digest)}",
+           f"#define {_m(plan, 'TOOL_VERSION')} {_c_string(__version__)}",
            f"#define {_m(plan, 'FORMAT_' + f.upper())} 1",
            f"#define {_m(plan, 'CYCLE_NS')} {round(plan.cycle_s * 1e9)}u",
            f"#define {_m(plan, 'ROWS')} {sh.n_rows}u",
            f"#define {_m(plan, 'TAPS_STRIDE')} {sh.stride}u",
-           f"#define {_m(plan, 'HISTORY_LEN')} {sh.history_len}u",
-           f"#define {_m(plan, 'HISTORY_BYTES')} {sz['history_bytes']}u",
+           f"#define {_m(plan, 'RING_LEN')} {sh.ring_len}u",
+           f"#define {_m(plan, 'RING_BYTES')} {sz['ring_bytes']}u",
+           f"#define {_m(plan, 'AMPLITUDE_ABS_SUM')} {_lit(sh.abs_sum, 'int64_t')}",
            f"#define {_m(plan, 'ROPE_LSB_NM')} {round(plan.schedule.lsb_m * 1e9)}u",
            f"#define {_m(plan, 'ROPE_MIN')} {plan.schedule.length_min}u",
            f"#define {_m(plan, 'ROPE_MAX')} {plan.schedule.length_max}u",
@@ -168,7 +191,7 @@ def render_tables_c(plan) -> str:
     thresholds = f"{p}_schedule_thresholds" if sh.n_rows > 1 else "NULL"
     M = lambda n: _m(plan, n)  # noqa: E731
     out += [f"const shk_shaper_{f}_table_t {p}_shaper_table = {{",
-            f"    {M('ROWS')}, {M('TAPS_STRIDE')}, {M('HISTORY_LEN')},",
+            f"    {M('ROWS')}, {M('TAPS_STRIDE')}, {M('RING_LEN')},",
             f"    {p}_shaper_n_taps, {p}_shaper_amplitudes, {p}_shaper_delays", "};", "",
             f"const shk_schedule_t {p}_schedule = {{",
             f"    {M('ROWS')}, {M('ROPE_MIN')}, {M('ROPE_MAX')}, {thresholds}", "};", ""]
@@ -194,8 +217,9 @@ def render_tables_c(plan) -> str:
             f"SHK_STATIC_ASSERT(sizeof({p}_shaper_amplitudes) == {n}u * sizeof({amp_t}), {p}_amplitudes_size);",
             f"SHK_STATIC_ASSERT(sizeof({p}_shaper_delays) == {n}u * sizeof(uint32_t), {p}_delays_size);",
             f"SHK_STATIC_ASSERT({M('TAPS_STRIDE')} <= SHK_SHAPER_MAX_TAPS, {p}_taps_limit);",
-            f"SHK_STATIC_ASSERT({M('HISTORY_BYTES')} == {M('HISTORY_LEN')} * sizeof({_SAMPLE_T[f]}), "
-            f"{p}_history_bytes);"]
+            f"SHK_STATIC_ASSERT({M('RING_BYTES')} == {M('RING_LEN')} * sizeof({_SLOT_T[f]}), {p}_ring_bytes);",
+            f"SHK_STATIC_ASSERT({M('AMPLITUDE_ABS_SUM')} <= SHK_SHAPER_{f.upper()}_ABS_SUM_LIMIT({M('TAPS_STRIDE')}), "
+            f"{p}_ring_capacity);"]
     if sh.n_rows > 1:
         out.append(f"SHK_STATIC_ASSERT(sizeof({p}_schedule_thresholds) == ({M('ROWS')} - 1u) * sizeof(uint32_t), "
                    f"{p}_thresholds_size);")
@@ -207,134 +231,6 @@ def render_tables_c(plan) -> str:
                 f"SHK_STATIC_ASSERT({M('NOTCH_STAGES')} <= SHK_BIQUAD_MAX_STAGES, {p}_stages_limit);",
                 f"SHK_STATIC_ASSERT({M('NOTCH_POST_SHIFT')} <= {MAX_POST_SHIFT[t.fmt]}u, {p}_post_shift_limit);"]
     out += [f"SHK_STATIC_ASSERT({' + '.join(table_bytes)} == {M('TABLE_BYTES')}, {p}_table_bytes);", ""]
-    return "\n".join(out)
-
-
-_SHAPER_CHECK = """
-static unsigned long check_shaper(int use_blocks)
-{
-    shk_shaper_$F_t sh;
-    unsigned long bad = 0u;
-    uint32_t g;
-    if (shk_schedule_check(&$P_schedule) != SHK_OK ||
-        shk_shaper_$F_init(&sh, &$P_shaper_table, history, $M_HISTORY_LEN) != SHK_OK) {
-        printf("init failed\\n");
-        return 1u;
-    }
-    for (g = 0u; g < N_SEG; ++g) {
-        uint32_t row = 0u;
-        uint32_t k;
-        shk_status_t s = shk_schedule_lookup(&$P_schedule, seg_length[g], &row);
-        if (s != seg_status[g] || row != seg_row[g]) {
-            printf("segment %lu: status %lu row %lu, expected %lu %lu\\n", (unsigned long)g,
-                   (unsigned long)s, (unsigned long)row, (unsigned long)seg_status[g], (unsigned long)seg_row[g]);
-            ++bad;
-        }
-        (void)shk_shaper_$F_select(&sh, row);
-        if (use_blocks) {
-            /* split each segment at an odd point: state must carry across calls */
-            uint32_t cut = 1u + 2u * (g % (SEG / 2u));
-            shk_shaper_$F_block(&sh, &shaper_in[g * SEG], work, cut);
-            shk_shaper_$F_block(&sh, &shaper_in[g * SEG + cut], &work[cut], SEG - cut);
-        } else {
-            for (k = 0u; k < SEG; ++k) {
-                work[k] = shk_shaper_$F_step(&sh, shaper_in[g * SEG + k]);
-            }
-        }
-        for (k = 0u; k < SEG; ++k) {
-            if (work[k] != shaper_out[g * SEG + k]) {
-                if (bad < 10u) {
-                    printf("shaper sample %lu: got %ld expected %ld\\n", (unsigned long)(g * SEG + k),
-                           (long)work[k], (long)shaper_out[g * SEG + k]);
-                }
-                ++bad;
-            }
-        }
-    }
-    return bad;
-}
-"""
-
-_NOTCH_CHECK = """
-static unsigned long check_notch(void)
-{
-    shk_biquad_$N_t bq;
-    unsigned long bad = 0u;
-    uint32_t k;
-    if (shk_biquad_$N_init(&bq, &$P_notch_table, notch_state, $M_NOTCH_STATE_LEN) != SHK_OK) {
-        printf("notch init failed\\n");
-        return 1u;
-    }
-    for (k = 0u; k < 101u; ++k) {
-        notch_work[k] = shk_biquad_$N_step(&bq, notch_in[k]);
-    }
-    shk_biquad_$N_block(&bq, &notch_in[101], &notch_work[101], N_NOTCH - 101u);
-    for (k = 0u; k < N_NOTCH; ++k) {
-        if (notch_work[k] != notch_out[k]) {
-            if (bad < 10u) {
-                printf("notch sample %lu: got %ld expected %ld\\n", (unsigned long)k,
-                       (long)notch_work[k], (long)notch_out[k]);
-            }
-            ++bad;
-        }
-    }
-    return bad;
-}
-"""
-
-_MAIN = """
-int main(void)
-{
-    unsigned long bad = check_shaper(0) + check_shaper(1);$NOTCH_CALL
-    if (bad != 0u) {
-        printf("$P self-test FAILED: %lu mismatches\\n", bad);
-        return 1;
-    }
-    printf("$P self-test passed: every output bit-exact with the Python reference\\n");
-    return 0;
-}
-"""
-
-
-def _fill(template: str, **names: str) -> str:
-    # longest names first so $M_... is not taken for $M
-    for key in sorted(names, key=len, reverse=True):
-        template = template.replace("$" + key, names[key])
-    return template
-
-
-def render_selftest(plan) -> str:
-    """``<prefix>_selftest.c``: host program, exit 0 only when every output is bit-exact."""
-    p, f = plan.prefix, plan.fmt
-    st = _SAMPLE_T[f]
-    v = selftest_vectors(plan)
-    names = {"P": p, "F": f, "M": p.upper()}
-    out = [_comment([
-        f"{p}_selftest.c - host self-test generated by stillhook {__version__}.",
-        "Expected outputs come from the Python integer reference (stillhook.fixedpoint); the program exits 0",
-        "only when the runtime reproduces every sample and every lookup status bit for bit.",
-        f"Build and run:  cc -std=c99 -O2 -o {p}_selftest {p}_selftest.c {p}_tables.c shk_*.c && ./{p}_selftest",
-        "Not part of the firmware: leave this file out of the drive build."]),
-        "#include <stdio.h>", "", f'#include "{p}_tables.h"', "",
-        f"#define SEG {SEGMENT_CYCLES}u", f"#define N_SEG {v.segment_lengths.size}u", "",
-        "static const uint32_t seg_length[N_SEG] = {", _array(v.segment_lengths, "uint32_t"), "};",
-        "static const uint32_t seg_status[N_SEG] = {", _array(v.segment_status, "uint32_t"), "};",
-        "static const uint32_t seg_row[N_SEG] = {", _array(v.segment_rows, "uint32_t"), "};",
-        f"static const {st} shaper_in[N_SEG * SEG] = {{", _array(v.shaper_in, st), "};",
-        f"static const {st} shaper_out[N_SEG * SEG] = {{", _array(v.shaper_out, st), "};",
-        f"static {st} history[{_m(plan, 'HISTORY_LEN')}];", f"static {st} work[SEG];",
-        _fill(_SHAPER_CHECK, **names)]
-    notch_call = ""
-    if plan.notch is not None:
-        nst = _SAMPLE_T[plan.notch.table.fmt]
-        out += [f"#define N_NOTCH {v.notch_in.size}u",
-                f"static const {nst} notch_in[N_NOTCH] = {{", _array(v.notch_in, nst), "};",
-                f"static const {nst} notch_out[N_NOTCH] = {{", _array(v.notch_out, nst), "};",
-                f"static {nst} notch_state[{_m(plan, 'NOTCH_STATE_LEN')}];",
-                f"static {nst} notch_work[N_NOTCH];",
-                _fill(_NOTCH_CHECK, N=plan.notch.table.fmt, **names)]
-        notch_call = "\n    bad += check_notch();"
-    out.append(_fill(_MAIN, NOTCH_CALL=notch_call, **names))
     return "\n".join(out)
 
 
@@ -365,7 +261,20 @@ def render_readme(plan) -> str:
         f"measured rope length (uint32 counts of {plan.schedule.lsb_m:g} m), act on a non-zero status (the crane "
         f"is outside the designed envelope), select the row, step the shaper with the speed command as a "
         f"{f.upper()} fraction of full scale. See the usage block in `{p}_tables.h`.", "",
-        f"RAM: {sz['ram_bytes']} bytes of buffers you provide (+ {sz['instance_bytes_32bit']} bytes of instance "
-        f"structs on a 32-bit target). Flash: {sz['flash_table_bytes']} bytes of tables plus the runtime code.", "",
+        f"RAM: {sz['ram_bytes']} bytes of buffers you provide: the shaper's accumulator ring, {sz['ring_slots']} "
+        f"slots x {sz['ring_slot_bytes']} bytes" + (f", and {sz['notch_state_bytes']} bytes of notch state"
+                                                    if sz["notch_state_bytes"] else "")
+        + f" (+ {sz['instance_bytes_32bit']} bytes of instance structs on a 32-bit target). "
+        f"Flash: {sz['flash_table_bytes']} bytes of tables plus the runtime code.", "",
+        "## Row switches and the travelled distance", "",
+        "The shaper spreads each speed sample, with the row selected when the sample arrives, over the "
+        "following cycles, and carries its rounding remainder from cycle to cycle. So a row switch during a "
+        "move never counts a sample twice or skips one: once the command has been zero for "
+        f"{sz['ring_slots']} cycles, the sum of the shaped outputs equals the sum of the commands exactly, and "
+        "the trolley ends at the commanded position (as long as no output saturated: `clipped` in the "
+        "instance stays 0). Samples already in flight keep their old row, so a switch while moving changes "
+        "the shaped speed for up to the shaper's duration as its mean delay changes: by up to "
+        f"{100 * switch_transient(plan.shaper):.3g} % of a steady command for neighbouring rows "
+        "(`row_switch_transient_max` in `manifest.json`); leave speed headroom for it. See `shk_shaper.h`.", "",
         "## Cautions", "", *[f"- {c}" for c in CAUTIONS], ""]
     return "\n".join(lines)

@@ -26,14 +26,14 @@ _RUNTIME_CDEF = """
 typedef uint32_t shk_status_t;
 typedef struct { uint32_t n_rows; uint32_t length_min; uint32_t length_max;
                  const uint32_t *thresholds; } shk_schedule_t;
-typedef struct { uint32_t n_rows; uint32_t taps_stride; uint32_t history_len; const uint32_t *n_taps;
+typedef struct { uint32_t n_rows; uint32_t taps_stride; uint32_t ring_len; const uint32_t *n_taps;
                  const int32_t *amplitudes; const uint32_t *delays; } shk_shaper_q15_table_t;
-typedef struct { uint32_t n_rows; uint32_t taps_stride; uint32_t history_len; const uint32_t *n_taps;
+typedef struct { uint32_t n_rows; uint32_t taps_stride; uint32_t ring_len; const uint32_t *n_taps;
                  const int64_t *amplitudes; const uint32_t *delays; } shk_shaper_q31_table_t;
-typedef struct { const shk_shaper_q15_table_t *table; int16_t *history; uint32_t head; uint32_t row; }
-    shk_shaper_q15_t;
-typedef struct { const shk_shaper_q31_table_t *table; int32_t *history; uint32_t head; uint32_t row; }
-    shk_shaper_q31_t;
+typedef struct { const shk_shaper_q15_table_t *table; int32_t *ring; uint32_t head; uint32_t row;
+                 int32_t remainder; uint32_t clipped; } shk_shaper_q15_t;
+typedef struct { const shk_shaper_q31_table_t *table; int64_t *ring; uint32_t head; uint32_t row;
+                 int32_t remainder; uint32_t clipped; } shk_shaper_q31_t;
 typedef struct { uint32_t n_stages; uint32_t post_shift; const int16_t *coeffs; } shk_biquad_q15_table_t;
 typedef struct { uint32_t n_stages; uint32_t post_shift; const int32_t *coeffs; } shk_biquad_q31_table_t;
 typedef struct { const shk_biquad_q15_table_t *table; int16_t *state; } shk_biquad_q15_t;
@@ -42,9 +42,9 @@ typedef struct { const shk_biquad_q31_table_t *table; int32_t *state; } shk_biqu
 shk_status_t shk_schedule_check(const shk_schedule_t *sched);
 shk_status_t shk_schedule_lookup(const shk_schedule_t *sched, uint32_t length, uint32_t *row);
 shk_status_t shk_shaper_q15_init(shk_shaper_q15_t *s, const shk_shaper_q15_table_t *table,
-                                 int16_t *history, uint32_t history_len);
+                                 int32_t *ring, uint32_t ring_len);
 shk_status_t shk_shaper_q31_init(shk_shaper_q31_t *s, const shk_shaper_q31_table_t *table,
-                                 int32_t *history, uint32_t history_len);
+                                 int64_t *ring, uint32_t ring_len);
 shk_status_t shk_shaper_q15_select(shk_shaper_q15_t *s, uint32_t row);
 shk_status_t shk_shaper_q31_select(shk_shaper_q31_t *s, uint32_t row);
 int16_t shk_shaper_q15_step(shk_shaper_q15_t *s, int16_t x);
@@ -62,6 +62,7 @@ void shk_biquad_q31_block(shk_biquad_q31_t *f, const int32_t *x, int32_t *y, uin
 """
 
 _CTYPE = {"q15": "int16_t", "q31": "int32_t"}
+_SLOT_CTYPE = {"q15": "int32_t", "q31": "int64_t"}
 _NPTYPE = {"q15": np.int16, "q31": np.int32}
 
 
@@ -99,13 +100,13 @@ class CRuntime:
         self.reset()
 
     def reset(self) -> None:
-        """Fresh instances (history and notch state zeroed by init)."""
+        """Fresh instances (accumulator ring, remainder and notch state zeroed by init)."""
         ffi, lib, p, f = self.ffi, self.lib, self.prefix, self.fmt
         self._shaper = ffi.new(f"shk_shaper_{f}_t *")
-        n = self.manifest["history_len"]
-        self._history = ffi.new(f"{_CTYPE[f]}[]", n)
+        n = self.manifest["ring_len"]
+        self._ring = ffi.new(f"{_SLOT_CTYPE[f]}[]", n)
         table = getattr(lib, f"{p}_shaper_table_ptr")()
-        st = getattr(lib, f"shk_shaper_{f}_init")(self._shaper, table, self._history, n)
+        st = getattr(lib, f"shk_shaper_{f}_init")(self._shaper, table, self._ring, n)
         if st != 0:
             raise EmitError(f"shaper init returned status {st}")
         self._notch = None
@@ -127,6 +128,16 @@ class CRuntime:
             status.append(self.lib.shk_schedule_lookup(sched, int(L), row))
             rows.append(row[0])
         return np.array(rows, dtype=np.int64), np.array(status, dtype=np.int64)
+
+    @property
+    def clipped(self) -> int:
+        """Outputs the C shaper clamped since the last reset (the instance's ``clipped``)."""
+        return int(self._shaper.clipped)
+
+    @property
+    def remainder(self) -> int:
+        """The C shaper's carried rounding remainder e (units 2^-F LSB)."""
+        return int(self._shaper.remainder)
 
     def select(self, row: int) -> int:
         return getattr(self.lib, f"shk_shaper_{self.fmt}_select")(self._shaper, int(row))

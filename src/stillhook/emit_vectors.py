@@ -14,7 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from stillhook.fixedpoint import BiquadModel, ShaperModel, sample_limits
+from stillhook.fixedpoint import BiquadModel, sample_limits
+from stillhook.fixedpoint_shaper import ShaperModel
 
 #: Cycles the rope length is held in the shaper vectors (odd, so blocks split at odd points).
 SEGMENT_CYCLES = 37

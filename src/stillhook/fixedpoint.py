@@ -11,9 +11,8 @@ Rounding, wherever a result is narrowed (round to nearest, ties toward +infinity
 
 Saturation: clamp to [-2^F, 2^F - 1] (F = 15 or 31); nothing wraps.
 
-Shaper, per cycle n with row r (amplitudes one width up, each row summing to exactly 2^F)::
-
-    y[n] = sat(round_shift(sum_i A[r, i] * x[n - d[r, i]], F))
+Shaper: scatter form with an accumulator ring and a carried rounding remainder, in
+:mod:`stillhook.fixedpoint_shaper` (amplitudes one width up, each row summing to exactly 2^F).
 
 Biquad stage (direct form I, feedback ADDED, CMSIS-DSP sign convention)::
 
@@ -43,8 +42,6 @@ from stillhook.errors import ConfigError, EmitError
 FRACTION_BITS = {"q15": 15, "q31": 31}
 #: Bytes per sample of each format.
 SAMPLE_BYTES = {"q15": 2, "q31": 4}
-#: Bytes per stored shaper amplitude (one width up, so 1.0 = 2^F fits).
-AMPLITUDE_BYTES = {"q15": 4, "q31": 8}
 #: C limits mirrored from codegen/ (shk_shaper.h, shk_biquad.h).
 MAX_TAPS = 4096
 MAX_STAGES = 64
@@ -153,120 +150,6 @@ def quantize_amplitudes(amplitudes, fmt: str) -> np.ndarray:
     if np.any(np.abs(q) > full):
         raise EmitError(f"a quantized amplitude exceeds full scale ({full}); allowed: |A| <= {full}")
     return q
-
-
-# -- shaper ------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class ShaperTable:
-    """Integer shaper rows as the C runtime stores them (padded to a common stride).
-
-    Attributes
-    ----------
-    fmt : {'q15', 'q31'}
-    amplitudes : ndarray int64 (n_rows, stride)
-        Units 2^-F; each row sums to exactly 2^F; padding taps are 0.
-    delays : ndarray int64 (n_rows, stride)
-        Whole cycles; padding taps are 0.
-    n_taps : ndarray int64 (n_rows,)
-    history_len : int
-        max delay + 1 (samples of history the caller provides).
-    """
-
-    fmt: str
-    amplitudes: np.ndarray
-    delays: np.ndarray
-    n_taps: np.ndarray
-    history_len: int
-
-    @classmethod
-    def from_rows(cls, rows: list[tuple[np.ndarray, np.ndarray]], fmt: str) -> ShaperTable:
-        """Build from ``[(amplitude ints, delay ints), ...]``, one pair per row."""
-        fraction_bits(fmt)
-        if not rows:
-            raise EmitError("a shaper table needs at least one row")
-        stride = max(len(a) for a, _ in rows)
-        if stride > MAX_TAPS:
-            raise EmitError(f"a shaper row has {stride} impulses; allowed: at most {MAX_TAPS}")
-        amps = np.zeros((len(rows), stride), dtype=np.int64)
-        dels = np.zeros((len(rows), stride), dtype=np.int64)
-        n_taps = np.zeros(len(rows), dtype=np.int64)
-        for r, (a, d) in enumerate(rows):
-            a, d = np.asarray(a, dtype=np.int64), np.asarray(d, dtype=np.int64)
-            if a.shape != d.shape or a.size == 0 or np.any(d < 0):
-                raise EmitError(f"shaper row {r}: amplitudes and delays must be equal-length, delays >= 0")
-            if int(a.sum()) != 1 << FRACTION_BITS[fmt]:
-                raise EmitError(f"shaper row {r}: amplitudes sum to {int(a.sum())}; allowed: exactly "
-                                f"{1 << FRACTION_BITS[fmt]}")
-            amps[r, : a.size], dels[r, : d.size], n_taps[r] = a, d, a.size
-        return cls(fmt, amps, dels, n_taps, int(dels.max()) + 1)
-
-    @property
-    def n_rows(self) -> int:
-        return int(self.amplitudes.shape[0])
-
-    @property
-    def stride(self) -> int:
-        return int(self.amplitudes.shape[1])
-
-    def flash_bytes(self) -> int:
-        """Bytes of the const arrays: amplitudes, delays (uint32) and tap counts (uint32)."""
-        n = self.n_rows * self.stride
-        return n * AMPLITUDE_BYTES[self.fmt] + n * 4 + self.n_rows * 4
-
-    def history_bytes(self) -> int:
-        """Bytes of the caller's history buffer."""
-        return self.history_len * SAMPLE_BYTES[self.fmt]
-
-
-@dataclass
-class ShaperModel:
-    """Integer model of shk_shaper_q15/q31: history, row selection and the impulse sum.
-
-    ``run(x, rows)`` processes a block; state carries over between calls exactly as the C
-    instance's ring buffer does (samples before the first call count as zero).
-    """
-
-    table: ShaperTable
-    history: np.ndarray = field(init=False)
-
-    def __post_init__(self) -> None:
-        self.reset()
-
-    def reset(self) -> None:
-        """Zero the history (as init does)."""
-        self.history = np.zeros(self.table.history_len, dtype=np.int64)  # oldest first
-
-    def run(self, x, rows) -> np.ndarray:
-        """Shape samples ``x`` (ints in the sample range) with row ``rows[k]`` at sample k.
-
-        Parameters
-        ----------
-        x : array_like of int
-        rows : int or array_like of int, same length as x
-        """
-        t = self.table
-        lo, hi = sample_limits(t.fmt)
-        xs = np.asarray(x, dtype=np.int64)
-        if xs.ndim != 1 or np.any(xs < lo) or np.any(xs > hi):
-            raise ConfigError(f"shaper input must be a 1-D array of {t.fmt} integers in [{lo}, {hi}]")
-        r = np.broadcast_to(np.asarray(rows, dtype=np.int64), xs.shape)
-        if np.any(r < 0) or np.any(r >= t.n_rows):
-            raise ConfigError(f"row numbers must be in [0, {t.n_rows - 1}]")
-        H = t.history_len
-        ext = np.concatenate([self.history, xs])
-        n = np.arange(xs.size)
-        A, D = t.amplitudes[r], t.delays[r]  # (N, stride)
-        v = ext[H + n[:, None] - D]
-        if t.fmt == "q15":
-            y = saturate(round_shift((A * v).sum(axis=1), 15), "q15")
-        else:
-            # the C split: v = hi * 2^16 + lo, two exact int64 sums, one rounding at the end
-            v_hi, v_lo = v >> 16, v & 0xFFFF
-            acc_hi, acc_lo = (A * v_hi).sum(axis=1), (A * v_lo).sum(axis=1)
-            m = acc_hi + ((acc_lo + (1 << 30)) >> 16)
-            y = saturate(m >> 15, "q31")
-        self.history = ext[-H:].copy()
-        return y
 
 
 # -- schedule ----------------------------------------------------------------------------------
