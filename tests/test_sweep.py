@@ -131,6 +131,8 @@ def test_spot_checks_agree_with_the_nonlinear_simulator(demo_sweep):
     assert len(demo_sweep.spot_checks) == 4
     assert "notch" not in demo_sweep.spot_checks[0].linear_m
     assert 0.0 < demo_sweep.max_disagreement() < 0.015
+    # on the scale of the nonlinear terms (the peak sway during the move) the error is much smaller
+    assert demo_sweep.max_disagreement_of_peak() < 0.005
 
 
 def test_sweep_rejects_bad_requests(demo_project):

@@ -130,7 +130,8 @@ def residual_map_figure(data: dict):
             Z = np.asarray(mp["residual_mm"])
             pc = _mesh(ax, m, L, Z, cmap="viridis")
             fig.colorbar(pc, ax=ax, label="residual sway (mm)")
-            ax.set_title(f"unshaped\nup to {Z.max():.3g} mm", loc="left", fontsize=9)
+            top_mm = f"{Z.max():.0f}" if Z.max() >= 100 else f"{Z.max():.3g}"
+            ax.set_title(f"unshaped\nup to {top_mm} mm", loc="left", fontsize=9)
         else:
             Z = np.asarray(mp["ratio_pct"])
             top = max(2.0 * tol, float(Z.max()))
@@ -139,7 +140,7 @@ def residual_map_figure(data: dict):
                 ax.contour(m, L, Z, levels=[tol], colors="black", linewidths=1.0)
             fig.colorbar(pc, ax=ax, label="% of unshaped residual")
             within = share.get(mp["key"])
-            extra = f"; {100 * within:.0f} % of rigs within {tol:g} %" if within is not None else ""
+            extra = f"; {100 * within:.1f} % of rigs within {tol:g} %" if within is not None else ""
             ax.set_title(f"{mp['label']}\nworst {Z.max():.3g} % of unshaped{extra}", loc="left", fontsize=9)
         ax.set_xlabel("payload mass (kg)")
         ax.set_ylabel("rope length (m)")

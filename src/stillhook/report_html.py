@@ -30,7 +30,8 @@ table.kv th{background:none;font-weight:normal;color:#5b6770;border-bottom:1px s
 figure{margin:14px 0 22px} figure img{width:100%;height:auto;border:1px solid #e3e8ec}
 figcaption{color:#5b6770;font-size:13px;margin-top:4px}
 code{font-family:"DejaVu Sans Mono",Consolas,monospace;font-size:12.5px;background:#f1f3f5;padding:1px 4px}
-.grid2{display:grid;grid-template-columns:1fr 1fr;gap:24px}
+.cols{display:flex;flex-wrap:wrap;gap:0 22px;align-items:flex-start}
+.cols th,.cols td{padding:3px 7px}
 .small{font-size:13px;color:#5b6770}
 """
 
@@ -47,6 +48,12 @@ def num(value, fmt: str = ".4g") -> str:
     if isinstance(value, int):
         return str(value)
     return esc(format(float(value), fmt))
+
+
+def mm(value_m) -> str:
+    """A length in m shown in mm: whole mm from 100 mm up, 3 significant digits below."""
+    v = 1000.0 * float(value_m)
+    return esc(f"{v:.0f}" if abs(v) >= 100 else f"{v:.3g}")
 
 
 def table(headers: list[str], rows: list[list], numeric: set[int] | None = None) -> str:

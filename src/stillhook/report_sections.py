@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from stillhook.report_html import esc, figure, kv_table, num, problem, table
+from stillhook.report_html import esc, figure, kv_table, mm, num, problem, table
 
 
 def _headline_key(study) -> str | None:
@@ -33,17 +33,23 @@ def section_summary(study) -> str:
 
 
 def _impulses(shaper, cycle_s) -> str:
+    """The impulses as up to three side-by-side tables (long shapers stay compact)."""
     d = shaper.as_dict(cycle_s)
     rows = [[num(i + 1), num(imp["time_s"], ".5g"), num(imp.get("delay_cycles")), num(imp["amplitude"], ".6f")]
             for i, imp in enumerate(d["impulses"])]
-    return table(["impulse", "time s", "delay (cycles)", "amplitude"], rows, {0, 1, 2, 3})
+    n_cols = 1 if len(rows) <= 8 else (2 if len(rows) <= 16 else 3)
+    per = -(-len(rows) // n_cols)
+    parts = [table(["impulse", "time s", "delay (cycles)", "amplitude"], rows[k:k + per], {0, 1, 2, 3})
+             for k in range(0, len(rows), per)]
+    return '<div class="cols">' + "".join(parts) + "</div>"
 
 
 def design_tables(study) -> str:
     """Reason, the single shaper's impulses and the schedule's rows in brief."""
     design, T = study.design, study.project.drive["cycle_s"]
     sh = design.shaper
-    out = [f"<p>{esc(design.reason)}</p>",
+    reason = design.reason[:1].upper() + design.reason[1:]
+    out = [f"<p>{esc(reason)}.</p>" if not reason.endswith(".") else f"<p>{esc(reason)}</p>",
            kv_table([("shaper for the whole envelope", f"{esc(sh.name or '-')}: {sh.n_impulses} impulses, "
                       f"{num(sh.duration_s, '.4g')} s long"),
                      ("high mode treated", "yes" if design.high_mode_treated else "no (see the reason above)"),
@@ -83,8 +89,8 @@ def section_comparison(study, png) -> str:
                    f"nonlinear simulation. At rest means |payload offset| &le; {num(1000 * c.rest_threshold_m, '.3g')}"
                    f" mm ({num(100 * c.tolerance)} % of the unshaped residual). Added delay: time the load is at "
                    "rest minus the end of the unshaped command.</p>")
-        rows = [[esc(r.label), esc(r.tuned_to), num(r.duration_s, ".3g"), num(1000 * r.residual_sway_m, ".3g"),
-                 num(r.residual_pct, ".3g"), num(1000 * r.peak_sway_m, ".3g"), num(r.added_delay_s, ".3g"),
+        rows = [[esc(r.label), esc(r.tuned_to), num(r.duration_s, ".3g"), mm(r.residual_sway_m),
+                 num(r.residual_pct, ".3g"), mm(r.peak_sway_m), num(r.added_delay_s, ".3g"),
                  num(r.peak_speed_m_s, ".3g"), num(r.peak_accel_m_s2, ".3g")] for r in c.rows]
         out.append(table(["method", "tuned to", "extra length s", "residual mm", "residual %", "peak mm",
                           "added delay s", "peak m/s", "peak m/s²"], rows, {2, 3, 4, 5, 6, 7, 8}))
@@ -109,7 +115,7 @@ def section_sweep(study, png) -> str:
     rows = []
     for s in sw.summary().values():
         at = s["worst_ratio_at"]
-        rows.append([esc(s["label"]), num(s["added_s"], ".3g"), num(1000 * s["worst_residual_m"], ".3g"),
+        rows.append([esc(s["label"]), num(s["added_s"], ".3g"), mm(s["worst_residual_m"]),
                      num(100 * s["worst_ratio"], ".3g"),
                      f"{num(at['rope_length_m'], '.3g')} m, {num(at['payload_mass_kg'], '.4g')} kg",
                      num(100 * s["share_within_tolerance"], ".1f")])

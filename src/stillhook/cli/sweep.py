@@ -79,15 +79,16 @@ def run(args: argparse.Namespace) -> int:
     rows = []
     for s in result.summary().values():
         at = s["worst_residual_at"]
-        rows.append([s["label"], s["added_s"], 1000 * s["worst_residual_m"],
+        worst_mm = 1000 * s["worst_residual_m"]
+        rows.append([s["label"], s["added_s"], f"{worst_mm:.0f}" if worst_mm >= 100 else f"{worst_mm:.3g}",
                      f"{at['rope_length_m']:.3g} m, {at['payload_mass_kg']:.4g} kg",
                      100 * s["worst_ratio"], f"{100 * s['share_within_tolerance']:.1f} %"])
     print(format_table(["design", "added s", "worst mm", "worst at", "worst % of unshaped",
                         f"within {100 * tol:g} %"], rows, floatfmt=".3g"))
     if result.spot_checks:
         checked = ", ".join(k for k in result.spot_checks[0].linear_m)
-        print(f"\nAccuracy: exact on the linear model. At the {len(result.spot_checks)} corners the nonlinear simulator "
-              f"agrees within {100 * result.max_disagreement():.2g} % of the unshaped residual "
+        print(f"\nAccuracy: exact on the linear model. At the {len(result.spot_checks)} corners the nonlinear "
+              f"simulator agrees within {100 * result.max_disagreement():.2g} % of the unshaped residual "
               f"({100 * result.max_disagreement_of_peak():.2g} % of the peak sway during the move; {checked}).")
     for n in result.notes:
         print(f"Note: {n}")
