@@ -35,3 +35,19 @@ def format_table(headers: list[str], rows: list[list], *, floatfmt: str = ".4g")
              "  ".join("-" * w for w in widths)]
     lines += ["  ".join(c.rjust(w) for c, w in zip(r, widths, strict=True)) for r in text]
     return "\n".join(lines)
+
+
+def print_bullets(title: str, items) -> None:
+    """A blank line, ``title:``, then one ``  - item`` line each (nothing when items is empty)."""
+    items = list(items)
+    if items:
+        print(f"\n{title}:")
+        for item in items:
+            print(f"  - {item}")
+
+
+def print_cautions() -> None:
+    """The safety cautions every design output carries (stillhook.CAUTIONS)."""
+    from stillhook import CAUTIONS
+
+    print_bullets("Cautions", CAUTIONS)

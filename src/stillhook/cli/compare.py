@@ -4,7 +4,14 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_project_argument,
+    format_table,
+    print_bullets,
+    print_cautions,
+    print_json,
+)
 
 HELP = "compare shapers and the notch filter on the project's move (nonlinear simulation, one table)"
 
@@ -49,11 +56,6 @@ def run(args: argparse.Namespace) -> int:
     print("\nadded delay: time the load is at rest minus the unshaped command's end ('-': not at rest in the "
           "window); dur: extra command length (notch: ring-out padding); mean delay: sum A_i t_i or the "
           "notch's group delay at DC; end error: final trolley position minus the distance.")
-    if result.notes:
-        print("\nNotes:")
-        for n in result.notes:
-            print(f"  - {n}")
-    print("\nCautions:")
-    for c in CAUTIONS:
-        print(f"  - {c}")
+    print_bullets("Notes", result.notes)
+    print_cautions()
     return 0

@@ -4,7 +4,13 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_project_argument,
+    format_table,
+    print_bullets,
+    print_json,
+)
 
 HELP = "notch filters at the sway modes for the drive cycle (second-order sections, fixed-point check)"
 
@@ -91,10 +97,5 @@ def _print_text(design, source: dict, cautions) -> None:
     print("\nFixed-point rounding (post shift "
           + ", ".join(f"{fmt} {s}" for fmt, s in design.post_shift.items()) + "; notch = angle of the zeros):")
     print(format_table(["format", "notch", "freq Hz", "rounded Hz", "shift %", "lost", "DC gain"], rows))
-    if design.warnings:
-        print("\nWarnings:")
-        for w in design.warnings:
-            print(f"  - {w}")
-    print("\nCautions:")
-    for c in cautions:
-        print(f"  - {c}")
+    print_bullets("Warnings", design.warnings)
+    print_bullets("Cautions", cautions)

@@ -4,7 +4,13 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_project_argument,
+    format_table,
+    print_cautions,
+    print_json,
+)
 
 HELP = "design a command shaper (ZV, ZVD, ZVDD, EI, two/three-hump EI, UM-ZV, band, two-mode) or a project's"
 
@@ -107,7 +113,6 @@ def _print_request(out: dict) -> None:
 
 
 def _run_project(args) -> int:
-    from stillhook import CAUTIONS
     from stillhook.design import design_for_project
     from stillhook.project import load_project_or_demo
 
@@ -138,7 +143,5 @@ def _run_project(args) -> int:
                                                                        strict=True))]))
         print(f"Worst residual payload sway with the schedule: {_pct(d.schedule_worst_ratio)} of unshaped")
     print("\nMeets the tolerance over the envelope: " + ("yes" if d.meets_tolerance else "NO"))
-    print("\nCautions:")
-    for c in CAUTIONS:
-        print(f"- {c}")
+    print_cautions()
     return 0

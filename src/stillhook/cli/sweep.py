@@ -5,7 +5,13 @@ from __future__ import annotations
 import argparse
 import sys
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_project_argument,
+    format_table,
+    print_cautions,
+    print_json,
+)
 
 HELP = "residual sway of the unshaped move and of each design over the whole envelope (fast linear sweep)"
 
@@ -92,7 +98,5 @@ def run(args: argparse.Namespace) -> int:
               f"({100 * result.max_disagreement_of_peak():.2g} % of the peak sway during the move; {checked}).")
     for n in result.notes:
         print(f"Note: {n}")
-    print("\nCautions:")
-    for c in CAUTIONS:
-        print(f"  - {c}")
+    print_cautions()
     return 0
