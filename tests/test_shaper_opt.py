@@ -105,3 +105,22 @@ def test_property_band_shaper_meets_tolerance(f_lo, ratio, tol):
 def test_impossible_requests_raise_one_clear_error(kwargs, match):
     with pytest.raises(DesignError, match=match):
         band_shaper(**kwargs)
+
+
+def test_cover_with_too_many_impulses_is_not_used():
+    # convolving sub-band forms over a 14x band at 0.5 % grows geometrically; such a row is impractical
+    from stillhook.shaper_opt import MAX_COVER_IMPULSES, closed_form_cover
+
+    assert closed_form_cover([(0.7, 10.0)], 0.005) is None
+    small = closed_form_cover([(0.7, 10.0)], 0.05)
+    assert small is not None and small.n_impulses <= MAX_COVER_IMPULSES
+
+
+def test_oversized_direct_search_is_refused_with_the_numbers(monkeypatch):
+    # an impossible-to-search request gets one clear DesignError instead of running for minutes
+    import stillhook.shaper_lp as lp
+    from stillhook.shaper_opt import multi_band_shaper
+
+    monkeypatch.setattr(lp, "MAX_BASIS_ENTRIES", 1000)
+    with pytest.raises(DesignError, match="candidate impulse times x .* check frequencies"):
+        multi_band_shaper([(0.09, 0.7), (0.7, 10.0)], 0.005, cycle_s=0.001, name="hard")

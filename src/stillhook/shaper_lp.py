@@ -46,6 +46,17 @@ _MARGINAL = 2e-3
 _HINT_BRACKET = 0.05
 #: Peaks above this fraction of the tolerance get a cut too (anticipating the next violation).
 _ANTICIPATE = 0.97
+#: Largest LP basis tried (check frequencies x candidate impulse times, complex entries, ~32 MB):
+#: keeps a design within seconds and bounded memory; larger problems fall back to closed forms.
+MAX_BASIS_ENTRIES = 2_000_000
+
+
+class ProblemTooLarge(Exception):
+    """The time grid times the check grid exceeds MAX_BASIS_ENTRIES (internal, caught by shaper_opt)."""
+
+    def __init__(self, n_times: int, n_freqs: int):
+        super().__init__(f"{n_times} candidate impulse times x {n_freqs} check frequencies")
+        self.n_times, self.n_freqs = n_times, n_freqs
 
 
 class _Bands:
@@ -106,6 +117,8 @@ def _minimax(prob: _Bands, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.
 
     n = tau.size
     wc, band = prob.check_grid(float(tau[-1]))
+    if n * wc.size > MAX_BASIS_ENTRIES:
+        raise ProblemTooLarge(n, wc.size)
     Ec = prob.basis(wc, tau)
     prob.seed_cuts(float(tau[-1]))
     c = np.zeros(n + 1)

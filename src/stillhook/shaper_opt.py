@@ -27,7 +27,7 @@ import numpy as np
 
 from stillhook.errors import DesignError
 from stillhook.shaper_forms import CLOSED_FORMS
-from stillhook.shaper_lp import optimize_on_grid
+from stillhook.shaper_lp import MAX_BASIS_ENTRIES, ProblemTooLarge, optimize_on_grid
 from stillhook.shapers import (
     Shaper,
     _check_damping,
@@ -119,9 +119,16 @@ def _cover_one(lo: float, hi: float, tol: float, zeta: float) -> tuple[float, li
     return best
 
 
-def closed_form_cover(bands_hz, tolerance: float = 0.05, damping_ratio: float = 0.0) -> Shaper | None:
+#: A cover with more impulses than this is not used: firmware rows that long are impractical, and
+#: convolving sub-band forms grows the impulse count geometrically (millions for wide, tight bands).
+MAX_COVER_IMPULSES = 1024
+
+
+def closed_form_cover(bands_hz, tolerance: float = 0.05, damping_ratio: float = 0.0, *,
+                      max_impulses: int = MAX_COVER_IMPULSES) -> Shaper | None:
     """Shortest closed form (or convolution of closed forms over sub-bands) with V <= tolerance
-    on every band; None when no combination of up to six sub-bands per band works."""
+    on every band; None when no combination of up to six sub-bands per band works, or when the
+    convolution would exceed ``max_impulses`` impulses."""
     bands = _check_bands(bands_hz)
     tol, zeta = _check_tolerance(tolerance), _check_damping(damping_ratio)
     result = None
@@ -131,6 +138,10 @@ def closed_form_cover(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
             return None
         for fam, f0 in parts:
             s = scaled_form(fam, f0, tol, zeta)
+            if result is not None and result.n_impulses * s.n_impulses > max_impulses:
+                # the merged count can only be smaller; check it exactly before giving up
+                if result.convolve(s).n_impulses > max_impulses:
+                    return None
             result = s if result is None else result.convolve(s)
     return result
 
@@ -174,12 +185,30 @@ def multi_band_shaper(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
     candidates = [s for s in candidates if (cycle is None or s.on_grid(cycle))
                   and worst_over_bands(s, bands, zeta) <= tol * (1.0 + 1e-6)]
     upper = min(candidates, key=lambda s: s.duration_s) if candidates else None
-    opt = optimize_on_grid(bands, tol, zeta, cycle, upper or cover, name, hint_s)
+    too_large = None
+    try:
+        opt = optimize_on_grid(bands, tol, zeta, cycle, upper or cover, name, hint_s)
+    except ProblemTooLarge as exc:
+        # The direct search would be too big; fall back to the closed-form cover put on the drive
+        # cycle (impulses split across neighbouring cycles), if it still meets the tolerance.
+        opt, too_large = None, exc
+        if cover is not None and cycle is not None and not cover.on_grid(cycle):
+            from stillhook.cycle_grid import to_cycle_grid
+
+            gridded = to_cycle_grid(cover, cycle, remedy="split")
+            if worst_over_bands(gridded, bands, zeta) <= tol * (1.0 + 1e-6):
+                candidates.append(gridded)
     pool = ([opt] if opt is not None else []) + candidates
+    bands_text = ", ".join(f"[{lo:g}, {hi:g}] Hz" for lo, hi in bands)
+    if not pool and too_large is not None:
+        raise DesignError(f"no shaper found with V <= {100 * tol:g} % over bands {bands_text}: the direct "
+                          f"search would need {too_large} (more than {MAX_BASIS_ENTRIES:,} pairs) and no "
+                          "closed-form shaper on the drive-cycle grid covers the bands; allowed: a larger "
+                          "tolerance, narrower bands (a shorter rope or payload range, or more schedule rows) "
+                          "or a longer drive cycle")
     if not pool:
-        raise DesignError(f"no shaper found with V <= {100 * tol:g} % over bands "
-                          + ", ".join(f"[{lo:g}, {hi:g}] Hz" for lo, hi in bands)
-                          + "; allowed: a larger tolerance or narrower bands")
+        raise DesignError(f"no shaper found with V <= {100 * tol:g} % over bands {bands_text}; "
+                          "allowed: a larger tolerance or narrower bands")
     best = min(pool, key=lambda s: (s.duration_s, s is not opt))
     if start is None:
         if len(_MEMO) >= 64:
