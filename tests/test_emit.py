@@ -225,3 +225,12 @@ def test_quantized_default_design_keeps_the_tolerance_over_the_envelope(minimal_
     worst = max(float(residual_ratio(env, shapers[k], [L], ms)[0].max()) for L, k in zip(Ls, rows, strict=True))
     assert worst <= project.design["tolerance_pct"] / 100.0
     assert len(plan.rows) >= 2  # length-scheduled
+
+
+def test_cffi_declarations_are_read_from_the_runtime_headers():
+    from stillhook.emit_cffi import runtime_cdef
+
+    text = runtime_cdef()
+    assert "#" not in text and "static inline" not in text and "SHK_STATIC_ASSERT" not in text
+    for name in ("shk_schedule_lookup(", "shk_shaper_q15_step(", "shk_shaper_q31_init(", "shk_biquad_q31_block("):
+        assert name in text

@@ -22,44 +22,41 @@ import numpy as np
 from stillhook.emit import RUNTIME_FILES
 from stillhook.errors import EmitError
 
-_RUNTIME_CDEF = """
-typedef uint32_t shk_status_t;
-typedef struct { uint32_t n_rows; uint32_t length_min; uint32_t length_max;
-                 const uint32_t *thresholds; } shk_schedule_t;
-typedef struct { uint32_t n_rows; uint32_t taps_stride; uint32_t ring_len; const uint32_t *n_taps;
-                 const int32_t *amplitudes; const uint32_t *delays; } shk_shaper_q15_table_t;
-typedef struct { uint32_t n_rows; uint32_t taps_stride; uint32_t ring_len; const uint32_t *n_taps;
-                 const int64_t *amplitudes; const uint32_t *delays; } shk_shaper_q31_table_t;
-typedef struct { const shk_shaper_q15_table_t *table; int32_t *ring; uint32_t head; uint32_t row;
-                 int32_t remainder; uint32_t clipped; } shk_shaper_q15_t;
-typedef struct { const shk_shaper_q31_table_t *table; int64_t *ring; uint32_t head; uint32_t row;
-                 int32_t remainder; uint32_t clipped; } shk_shaper_q31_t;
-typedef struct { uint32_t n_stages; uint32_t post_shift; const int16_t *coeffs; } shk_biquad_q15_table_t;
-typedef struct { uint32_t n_stages; uint32_t post_shift; const int32_t *coeffs; } shk_biquad_q31_table_t;
-typedef struct { const shk_biquad_q15_table_t *table; int16_t *state; } shk_biquad_q15_t;
-typedef struct { const shk_biquad_q31_table_t *table; int32_t *state; } shk_biquad_q31_t;
+#: Runtime headers whose declarations cffi needs, in include order.
+_CDEF_HEADERS = ("shk_fixed.h", "shk_schedule.h", "shk_shaper.h", "shk_biquad.h")
 
-shk_status_t shk_schedule_check(const shk_schedule_t *sched);
-shk_status_t shk_schedule_lookup(const shk_schedule_t *sched, uint32_t length, uint32_t *row);
-shk_status_t shk_shaper_q15_init(shk_shaper_q15_t *s, const shk_shaper_q15_table_t *table,
-                                 int32_t *ring, uint32_t ring_len);
-shk_status_t shk_shaper_q31_init(shk_shaper_q31_t *s, const shk_shaper_q31_table_t *table,
-                                 int64_t *ring, uint32_t ring_len);
-shk_status_t shk_shaper_q15_select(shk_shaper_q15_t *s, uint32_t row);
-shk_status_t shk_shaper_q31_select(shk_shaper_q31_t *s, uint32_t row);
-int16_t shk_shaper_q15_step(shk_shaper_q15_t *s, int16_t x);
-int32_t shk_shaper_q31_step(shk_shaper_q31_t *s, int32_t x);
-void shk_shaper_q15_block(shk_shaper_q15_t *s, const int16_t *x, int16_t *y, uint32_t n);
-void shk_shaper_q31_block(shk_shaper_q31_t *s, const int32_t *x, int32_t *y, uint32_t n);
-shk_status_t shk_biquad_q15_init(shk_biquad_q15_t *f, const shk_biquad_q15_table_t *table,
-                                 int16_t *state, uint32_t state_len);
-shk_status_t shk_biquad_q31_init(shk_biquad_q31_t *f, const shk_biquad_q31_table_t *table,
-                                 int32_t *state, uint32_t state_len);
-int16_t shk_biquad_q15_step(shk_biquad_q15_t *f, int16_t x);
-int32_t shk_biquad_q31_step(shk_biquad_q31_t *f, int32_t x);
-void shk_biquad_q15_block(shk_biquad_q15_t *f, const int16_t *x, int16_t *y, uint32_t n);
-void shk_biquad_q31_block(shk_biquad_q31_t *f, const int32_t *x, int32_t *y, uint32_t n);
-"""
+
+def runtime_cdef(folder: Path | None = None) -> str:
+    """cffi declarations read from the runtime headers themselves (one source of truth).
+
+    Comments, preprocessor lines (with their continuations), static asserts and ``static inline``
+    function bodies are dropped; what remains are the typedefs and prototypes. cffi's API mode
+    then checks them against the real headers when it compiles.
+    """
+    import re
+
+    from stillhook.emit import runtime_dir
+
+    base = Path(folder) if folder is not None else Path(str(runtime_dir()))
+    out = []
+    for name in _CDEF_HEADERS:
+        text = (base / name).read_text()
+        text = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
+        kept, continued = [], False
+        for line in text.splitlines():
+            drop = continued or line.lstrip().startswith(("#", "SHK_STATIC_ASSERT"))
+            continued = drop and line.rstrip().endswith("\\")
+            if not drop:
+                kept.append(line)
+        text = "\n".join(kept)
+        while (m := re.search(r"static\s+inline[^;{]*\{", text)) is not None:
+            depth, i = 1, m.end()
+            while depth:
+                depth += {"{": 1, "}": -1}.get(text[i], 0)
+                i += 1
+            text = text[: m.start()] + text[i:]
+        out.append(text.strip())
+    return "\n".join(out) + "\n"
 
 _CTYPE = {"q15": "int16_t", "q31": "int32_t"}
 _SLOT_CTYPE = {"q15": "int32_t", "q31": "int64_t"}
@@ -203,7 +200,7 @@ def load_emitted(folders, build_dir, *, extra_compile_args=("-std=c99", "-O1")) 
     digest = hashlib.sha256("".join(Path(s).read_text() for s in sources).encode()).hexdigest()[:12]
     name = f"_stillhook_c_{digest}"
     ffi = cffi.FFI()
-    ffi.cdef(_RUNTIME_CDEF + "".join(_getter_decls(m) for m in manifests))
+    ffi.cdef(runtime_cdef() + "".join(_getter_decls(m) for m in manifests))
     ffi.set_source(name, header, sources=sources, include_dirs=[str(f) for f in folders],
                    extra_compile_args=list(extra_compile_args))
     path = ffi.compile(tmpdir=str(build_dir), verbose=False)
