@@ -130,14 +130,19 @@ def test_version_mismatch_stops_the_build(folders, tmp_path):
     assert r.returncode != 0 and f"runtime version {RUNTIME_VERSION}" in r.stderr
 
 
-def test_static_assert_catches_a_size_the_generator_did_not_make(folders, tmp_path):
+def _copy_tables(folders, tmp_path):
+    """A copy of the emitted Q15 folder to spoil: (folder, plan, tables.c path, its text, start of delays)."""
     folder, plan = folders["q15"]
     bad = tmp_path / "bad"
     shutil.copytree(folder, bad)
     c = bad / f"{plan.prefix}_tables.c"
     text = c.read_text()
+    return bad, plan, c, text, text.index(f"const uint32_t {plan.prefix}_shaper_delays[] = {{")
+
+
+def test_static_assert_catches_a_size_the_generator_did_not_make(folders, tmp_path):
+    bad, plan, c, text, start = _copy_tables(folders, tmp_path)
     # drop the last delay: the array is one element short of ROWS x TAPS_STRIDE
-    start = text.index(f"const uint32_t {plan.prefix}_shaper_delays[] = {{")
     end = text.index("};", start)
     body = text[start:end].rstrip().rstrip(",")
     body = body[: body.rfind(",")] + ","
@@ -147,12 +152,7 @@ def test_static_assert_catches_a_size_the_generator_did_not_make(folders, tmp_pa
 
 
 def test_self_test_fails_on_a_wrong_table(folders, tmp_path):
-    folder, plan = folders["q15"]
-    bad = tmp_path / "bad"
-    shutil.copytree(folder, bad)
-    c = bad / f"{plan.prefix}_tables.c"
-    text = c.read_text()
-    start = text.index(f"const uint32_t {plan.prefix}_shaper_delays[] = {{")
+    bad, plan, c, text, start = _copy_tables(folders, tmp_path)
     row0 = text.index("/* row 0 */\n", start) + len("/* row 0 */\n")
     first = re.search(r"(\d+)u", text[row0:])
     assert first.group(1) == "0"  # every shaper's first impulse is at delay 0
