@@ -82,7 +82,7 @@ def test_band_design_holds_over_the_envelope_in_simulation():
             assert ratio(env.rig(L, m), d.shaper) <= 0.05, (L, m)
 
 
-def _linear_residual(rig_modes, F, P, speed, t_after):
+def _linear_residual(F, P, speed, t_after):
     """Peak payload offset after the command from modal superposition (undamped, linear).
 
     Per-cycle constant acceleration a_k on [k Ts, (k+1) Ts): each mode responds as P_i a (1 - cos w t) to a
@@ -110,14 +110,14 @@ def test_residual_model_of_the_design_matches_the_simulator():
     low = band_shaper(F[0] * 0.97, F[0] * 1.03, 0.05, cycle_s=Ts)  # treats the low mode only
     for v in (move, low.apply(move, Ts)):
         sim = simulate(rig, v, Ts)
-        after = sim.t_s[sim.t_s > sim.command_end_s] - 0.0
-        predicted = _linear_residual(None, F, P, v, after)
+        after = sim.t_s[sim.t_s > sim.command_end_s]
+        predicted = _linear_residual(F, P, v, after)
         assert sim.residual_payload_sway_m == pytest.approx(predicted, rel=0.01)
     # shaped residual per mode is V_i times the unshaped one (linearity): the high mode is left almost whole
     sim = simulate(rig, low.apply(move, Ts), Ts)
     after = sim.t_s[sim.t_s > sim.command_end_s]
     V = low.vibration_at_hz(F)
-    scaled = _linear_residual(None, F, P * V, move, after + low.duration_s)
+    scaled = _linear_residual(F, P * V, move, after + low.duration_s)
     assert sim.residual_payload_sway_m == pytest.approx(scaled, rel=0.02)
 
 

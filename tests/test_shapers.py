@@ -18,7 +18,6 @@ from stillhook.shapers import (
     ei3,
     insensitive_band_hz,
     insensitivity_width,
-    residual_vibration,
     sensitivity_curve,
     umzv,
     worst_vibration,
@@ -320,4 +319,3 @@ def test_property_convolution_commutes_and_multiplies_vibration(a, b, w, z):
     # V of a convolution is the product (same pole): Singer & Seering 1990 V with the decay factors
     assert ab.residual_vibration(w, z) == pytest.approx(sa.residual_vibration(w, z) * sb.residual_vibration(w, z),
                                                        rel=1e-9, abs=1e-12)
-    assert residual_vibration(ab.times_s, ab.amplitudes, w, z) == pytest.approx(ab.residual_vibration(w, z))

@@ -153,7 +153,7 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
     from stillhook import shapers
     from stillhook.cycle_grid import to_cycle_grid
     from stillhook.design import design_for_project
-    from stillhook.notch import notch_for_project
+    from stillhook.notch import MIN_EDGE_RATIO, notch_for_project
     from stillhook.shaper_opt import band_shaper
 
     env = project.envelope
@@ -173,7 +173,7 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
     lo, hi = env.mode_bands_hz()[i]
     if hi / lo < 1.0 + 1e-6:
         # a one-point envelope has no band: cover +-10 % (the notch module's narrowest band)
-        lo, hi = f / 1.1, f * 1.1
+        lo, hi = f / MIN_EDGE_RATIO, f * MIN_EDGE_RATIO
         notes.append(f"band shaper: the envelope gives mode {i + 1} no band; +-10 % around {f:.4g} Hz used")
     out.append(Candidate("band", "band", band_shaper(lo, hi, tol, zeta, cycle_s=T),
                          f"mode {i + 1} band {lo:.4g}-{hi:.4g} Hz"))
@@ -204,15 +204,13 @@ def _command(candidate: Candidate, speed: np.ndarray, T: float) -> tuple[np.ndar
 def time_at_rest_s(result, target_m: float, threshold_m: float) -> float | None:
     """Time from which |trolley position + payload offset - target_m| stays <= threshold_m (s).
 
-    None when the payload is outside the threshold at the last simulated sample.
+    None when the payload is outside the threshold at the last simulated sample
     """
+    from stillhook.dynamics import time_within_s
+
     err = np.abs(result.trolley_position_m + result.payload_offset_m - target_m)
-    outside = np.nonzero(err > threshold_m)[0]
-    if len(outside) == 0:
-        return 0.0
-    if outside[-1] == len(err) - 1:
-        return None
-    return float(result.t_s[outside[-1] + 1])
+    t = time_within_s(result.t_s, err, threshold_m)
+    return None if t == float("inf") else t
 
 
 def compare_project(project, *, distance_m: float | None = None, include_hoist: bool = True,
@@ -236,7 +234,7 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
     -------
     Comparison
     """
-    from stillhook.dynamics import SETTLE_WINDOW_S, simulate
+    from stillhook.dynamics import simulate
     from stillhook.errors import ConfigError
     from stillhook.profiles import project_move
 
@@ -276,7 +274,7 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
         ))
     return Comparison(
         rows=tuple(rows), project=project.name, distance_m=distance, cycle_s=T, tolerance=tol,
-        rest_threshold_m=threshold, unshaped_end_s=unshaped_end, settle_window_s=SETTLE_WINDOW_S,
+        rest_threshold_m=threshold, unshaped_end_s=unshaped_end, settle_window_s=base.settle_s,
         hoist=hoist is not None,
         rig={"hook_mass_kg": rig.hook_mass_kg, "payload_mass_kg": rig.payload_mass_kg,
              "rope_length_m": rig.rope_length_m, "rigging_length_m": rig.rigging_length_m,

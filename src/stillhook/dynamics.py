@@ -108,13 +108,7 @@ class SimResult:
         Returns ``math.inf`` when the payload is still outside the threshold at the end of the
         simulated window.
         """
-        outside = np.nonzero(np.abs(self.payload_offset_m) > threshold_m)[0]
-        if len(outside) == 0:
-            return 0.0
-        last = outside[-1]
-        if last == len(self.t_s) - 1:
-            return math.inf
-        return float(self.t_s[last + 1])
+        return time_within_s(self.t_s, np.abs(self.payload_offset_m), threshold_m)
 
     def metrics(self) -> dict:
         """JSON-ready metrics."""
@@ -125,6 +119,16 @@ class SimResult:
             "residual_hook_sway_m": self.residual_hook_sway_m,
             "settle_window_s": self.settle_s,
         }
+
+
+def time_within_s(t_s: np.ndarray, error_m: np.ndarray, threshold_m: float) -> float:
+    """First time from which error_m stays <= threshold_m (s); ``math.inf`` if it is outside at the end."""
+    outside = np.nonzero(error_m > threshold_m)[0]
+    if len(outside) == 0:
+        return 0.0
+    if outside[-1] == len(t_s) - 1:
+        return math.inf
+    return float(t_s[outside[-1] + 1])
 
 
 def _as_samples(name: str, values, cycle_s: float) -> np.ndarray:

@@ -143,17 +143,14 @@ def pole_damping_for_band(freq_hz: float, band_hz: tuple[float, float], cycle_s:
     return sqrt_u * math.sqrt((1.0 - tolerance**2) / (tolerance**2 - depth_ratio**2))
 
 
-
-
-def _number(name: str, value, *, lo: float = 0.0, lo_ok: bool = False, hi: float = math.inf,
-            allowed: str = "a finite number > 0") -> float:
+def _number(name: str, value, *, hi: float = math.inf, allowed: str = "a finite number > 0") -> float:
     if isinstance(value, bool):
         raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}")
     try:
         v = float(value)
     except (TypeError, ValueError):
         raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}") from None
-    if not math.isfinite(v) or v < lo or (v == lo and not lo_ok) or v >= hi:
+    if not math.isfinite(v) or v <= 0.0 or v >= hi:
         raise ConfigError(f"{name} = {value!r} is out of range; allowed: {allowed}")
     return v
 

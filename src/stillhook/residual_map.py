@@ -80,8 +80,8 @@ def mode_shares(envelope: Envelope, rope_lengths_m, payload_masses_kg) -> tuple[
     return F, A / A.sum(axis=-1, keepdims=True)
 
 
-def residual_ratio(envelope: Envelope, shaper: Shaper, rope_lengths_m, payload_masses_kg,
-                   modes: tuple[int, ...] | None = None) -> tuple[np.ndarray, np.ndarray]:
+def residual_ratio(envelope: Envelope, shaper: Shaper, rope_lengths_m,
+                   payload_masses_kg) -> tuple[np.ndarray, np.ndarray]:
     """Residual payload sway over unshaped, sum_i |P_i| V_i / sum_i |P_i|, on the grid.
 
     Returns
