@@ -3,8 +3,8 @@
  *
  * Input contract
  *   length: the hoist rope length (trolley to hook) as an unsigned count, uint32_t, in the
- *   unit the emitted tables state (<PREFIX>_ROPE_LSB_UM micrometres per count; default
- *   1000 um = 1 mm per count). Any uint32_t value is accepted.
+ *   unit the emitted tables state (<PREFIX>_ROPE_LSB_NM nanometres per count; default
+ *   1000000 nm = 1 mm per count). Any uint32_t value is accepted.
  *
  * Rule
  *   The envelope is [length_min, length_max] counts. A length outside it is clamped to the

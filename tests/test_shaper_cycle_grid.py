@@ -16,7 +16,8 @@ from stillhook.shapers import ei, umzv, zv, zvd
 
 def test_murphy_watanabe_example_round_split_resolve():
     # Digital shapers on a sample grid: Murphy & Watanabe, IEEE Trans. Robotics & Automation
-    # 8(2):285-289, 1992 (from memory). Computed example (REFERENCE.md): ZV at 0.38153 Hz, Ts = 0.05 s:
+    # 8(2):285-289, 1992 (from memory). Computed example (V formula of Singer & Seering 1990):
+    # ZV at 0.38153 Hz, Ts = 0.05 s:
     # nearest-sample rounding leaves 1.26 % (bound w Ts / 4 = 3.0 %), a linear split 0.06 %,
     # three impulses solved on the grid 0 %.
     f, Ts = 0.38153, 0.05

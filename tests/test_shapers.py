@@ -198,7 +198,7 @@ def test_umzv_negative_impulses_zero_vibration_and_overshoot_flag():
 @pytest.mark.parametrize("maker, width", [
     (zv, 0.0637), (zvd, 0.2871), (zvdd, 0.4804), (ei, 0.3994), (ei2, 0.7245), (ei3, 0.9639), (umzv, 0.0551)])
 def test_five_percent_insensitivity_widths_undamped(maker, width):
-    # Computed from the formulas (REFERENCE.md); Vaughan, Yano & Singhose, "Comparison of robust input
+    # Computed from the formulas of the sources named here; Vaughan, Yano & Singhose, "Comparison of robust input
     # shapers", J. Sound Vib. 315:797-815, 2008 rounds them to 0.06, 0.29, 0.40, 0.73, 0.96-0.97.
     s = maker(0.37) if maker in (zv, zvd, zvdd, umzv) else maker(0.37, 0.0, 0.05)
     assert insensitivity_width(s, 0.37, 0.05) == pytest.approx(width, abs=1e-4)

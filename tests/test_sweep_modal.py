@@ -20,7 +20,8 @@ def _env(hook=340.0, rigging=3.1, ropes=(1.2, 9.5), masses=(70.0, 1600.0), zeta=
 
 def test_frequencies_match_the_published_test_vector():
     # Kibble & Berkshire, Classical Mechanics, 5th ed., 2004 (double-pendulum frequency equation);
-    # computed vector from /work/shared/REFERENCE.md: (50, 500, 6, 1.5), g = 9.81 -> 0.18338, 1.49806 Hz.
+    # computed from that equation:
+    # (50, 500, 6, 1.5), g = 9.81 -> 0.18338, 1.49806 Hz.
     env = _env(hook=50.0, rigging=1.5, ropes=(6.0, 6.0), masses=(500.0, 500.0), g=9.81)
     b = ModalBatch.from_envelope(env, [6.0], [500.0])
     assert b.omega_rad_s[0] / (2 * math.pi) == pytest.approx([0.18338, 1.49806], abs=6e-6)

@@ -258,7 +258,7 @@ def notch_requested(project) -> bool:
     flag = project.firmware.get("notch")
     if flag is not None:
         return bool(flag)
-    return "notch" in getattr(project, "given_sections", ()) or any(v is not None for v in project.notch.values())
+    return "notch" in project.given_sections
 
 
 def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = None, schedule=None,

@@ -200,7 +200,7 @@ def load_emitted(folders, build_dir, *, extra_compile_args=("-std=c99", "-O1")) 
     digest = hashlib.sha256("".join(Path(s).read_text() for s in sources).encode()).hexdigest()[:12]
     name = f"_stillhook_c_{digest}"
     ffi = cffi.FFI()
-    ffi.cdef(runtime_cdef() + "".join(_getter_decls(m) for m in manifests))
+    ffi.cdef(runtime_cdef(folders[0]) + "".join(_getter_decls(m) for m in manifests))
     ffi.set_source(name, header, sources=sources, include_dirs=[str(f) for f in folders],
                    extra_compile_args=list(extra_compile_args))
     path = ffi.compile(tmpdir=str(build_dir), verbose=False)

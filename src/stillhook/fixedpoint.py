@@ -67,11 +67,6 @@ def sample_limits(fmt: str) -> tuple[int, int]:
 
 
 # -- scalar/array arithmetic ------------------------------------------------------------------
-def floor_shift(v, s: int):
-    """floor(v / 2^s) for Python ints or int64 arrays (numpy's >> on signed ints is a floor)."""
-    return v >> s
-
-
 def round_shift(v, s: int):
     """round(v / 2^s), ties toward +infinity: floor((v + 2^(s-1)) / 2^s), s >= 1."""
     return (v + (1 << (s - 1))) >> s
@@ -257,14 +252,13 @@ class BiquadModel:
         if any(v < lo or v > hi for v in xs):
             raise ConfigError(f"biquad input must be {t.fmt} integers in [{lo}, {hi}]")
         s = FRACTION_BITS[t.fmt] - t.post_shift
-        half = 1 << (s - 1)
         coeffs = [[int(c) for c in row] for row in t.coeffs]
         out = np.empty(len(xs), dtype=np.int64)
         for n, v in enumerate(xs):
             for (b0, b1, b2, a1, a2), st in zip(coeffs, self.state, strict=True):
                 # Python ints are exact, so this equals the C split accumulator for Q31
                 acc = b0 * v + b1 * st[0] + b2 * st[1] + a1 * st[2] + a2 * st[3]
-                y = min(max((acc + half) >> s, lo), hi)
+                y = saturate(round_shift(acc, s), t.fmt)
                 st[1], st[0], st[3], st[2] = st[0], v, st[2], y
                 v = y
             out[n] = v

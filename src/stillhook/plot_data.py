@@ -74,7 +74,7 @@ def _schedule_row_curve(env, sched, w, zeta) -> dict:
 
     from stillhook.sweep_result import schedule_rows
 
-    rule = getattr(sched, "lookup_rule", "nearest")
+    rule = sched.lookup_rule
     rows = np.asarray(sched.rope_lengths_m, dtype=float)
     k = int(schedule_rows(rows, env.nominal_rope_length_m, rule))
     # the rope lengths that select row k: between the switch points on either side

@@ -185,21 +185,16 @@ def _sweep_json(sweep) -> dict | None:
     return d
 
 
-def report_files(study: Study, *, formats=("png", "svg")) -> dict[str, str | bytes]:
-    """``{relative name: text or bytes}``: report.html, report.json and figures/*."""
+def report_files(study: Study) -> dict[str, str | bytes]:
+    """``{relative name: text or bytes}``: figures/* (PNG and SVG), report.json and report.html."""
     from stillhook.outputs import to_json
-    from stillhook.plots import figure_bytes, render
+    from stillhook.plots import figure_files
     from stillhook.report_html import render_html
 
-    files: dict[str, str | bytes] = {}
-    png = {}
-    for name in sorted(study.figures):
-        fig = render(study.figures[name])
-        for fmt in formats:
-            files[f"figures/{name}.{fmt}"] = figure_bytes(fig, fmt)
-        png[name] = files.get(f"figures/{name}.png") or figure_bytes(fig, "png")
+    figs = figure_files(study.figures)
+    files: dict[str, str | bytes] = {f"figures/{k}": v for k, v in figs.items()}
     files["report.json"] = to_json(report_json(study))
-    files["report.html"] = render_html(study, png)
+    files["report.html"] = render_html(study, {n: figs[f"{n}.png"] for n in sorted(study.figures)})
     return files
 
 

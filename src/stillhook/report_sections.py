@@ -61,7 +61,7 @@ def design_tables(study) -> str:
     if sched is not None:
         lengths = list(sched.rope_lengths_m)
         durs = [s.duration_s for s in sched.shapers]
-        rule = getattr(sched, "lookup_rule", "nearest")
+        rule = sched.lookup_rule
         out.append("<h3>Length schedule</h3>")
         out.append(kv_table([
             ("rows", f"{len(lengths)} rope lengths from {num(lengths[0])} to {num(lengths[-1])} m"),

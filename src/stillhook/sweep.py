@@ -82,7 +82,7 @@ def project_designs(project, speed_m_s, *, keys=DESIGN_KEYS, design=None, notch=
         if sched is None:
             notes.append("no length schedule: [design] schedule = false or the design needs none")
         else:
-            rule = getattr(sched, "lookup_rule", "nearest")
+            rule = sched.lookup_rule
             cmds = tuple(s.apply(v, T) for s in sched.shapers)
             rows = np.asarray(sched.rope_lengths_m, dtype=float)
             out.append(SweepDesign("schedule", f"length schedule ({len(rows)} rows, {rule})",

@@ -44,6 +44,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.dynamics import SETTLE_WINDOW_S
 from stillhook.errors import ConfigError
 from stillhook.rig import mode_frequencies_rad_s
 
@@ -275,7 +276,7 @@ def peak_after_end(batch: ModalBatch, amplitudes: np.ndarray, settle_s: float, *
     for b0 in range(0, batch.size, BLOCK_RIGS):
         sl = slice(b0, min(b0 + BLOCK_RIGS, batch.size))
         sb, Pb = s[sl], P[..., sl, :]
-        active = np.abs(batch.payload_gain[sl] if which == "payload" else batch.hook_gain[sl]) > 0
+        active = np.abs(gain[sl]) > 0
         tau = _grid(float(np.max(np.abs(sb[active]))) if np.any(active) else 1.0, settle_s)
         E = np.exp(sb[..., None] * tau)  # (r, 2, J)
         # x(tau) = Im(P_1 E_1 + P_2 E_2) = Re(P) Im(E) + Im(P) Re(E), summed over modes
@@ -296,7 +297,7 @@ def peak_after_end(batch: ModalBatch, amplitudes: np.ndarray, settle_s: float, *
     return out
 
 
-def residual_sway_m(batch: ModalBatch, speed_m_s, cycle_s: float, *, settle_s: float = 20.0,
+def residual_sway_m(batch: ModalBatch, speed_m_s, cycle_s: float, *, settle_s: float = SETTLE_WINDOW_S,
                     which: str = "payload") -> np.ndarray:
     """Residual sway (m) of every rig of ``batch`` after one speed command.
 
