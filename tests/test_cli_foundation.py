@@ -71,3 +71,12 @@ def test_console_script_runs_without_traceback(tmp_path):
                        capture_output=True, text=True)
     assert r.returncode == 2
     assert r.stderr.startswith("stillhook: error:") and "Traceback" not in r.stderr
+
+
+def test_every_design_output_carries_the_cautions(capsys):
+    from stillhook import CAUTIONS
+
+    assert main(["shaper", "--method", "zv", "--frequency-hz", "0.5", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["cautions"] == list(CAUTIONS)
+    assert main(["shaper", "--method", "zv", "--frequency-hz", "0.5"]) == 0
+    assert CAUTIONS[0] in capsys.readouterr().out

@@ -27,16 +27,17 @@ def test_energy_is_conserved_in_free_large_angle_swing():
 
 
 def test_damping_removes_energy_at_the_modal_rate():
-    # With modal damping zeta, a free low-mode swing decays as exp(-zeta w t) (linear vibration theory).
+    # With modal damping zeta, a free low-mode swing decays as exp(-zeta w t) (viscously damped free
+    # vibration: Rao, Mechanical Vibrations, 5th ed., 2011, section 2.6, from memory).
     rig = Rig(340.0, 150.0, 5.0, 3.1, damping_ratio=0.01)
     low = rig.modes()[0]
     th0 = 0.01 * low.shape / low.shape[0]
     res = simulate(rig, np.zeros(1), 0.01, settle_s=40.0, initial_angles_rad=tuple(th0))
     late = np.abs(res.hook_offset_m[res.t_s > 30.0]).max()
     early = np.abs(res.hook_offset_m[res.t_s < low.period_s]).max()
-    t_mid = 30.0 + 5.0 - 0.0  # peak of the late window sits near its start; bound both ways
+    # the late peak lies in [30, 40] s and the early one in [0, T]: bound the decay both ways
     assert late / early < math.exp(-0.01 * low.omega_rad_s * 29.0)
-    assert late / early > math.exp(-0.01 * low.omega_rad_s * (t_mid + 6.0))
+    assert late / early > math.exp(-0.01 * low.omega_rad_s * 41.0)
 
 
 def test_small_moves_agree_with_the_linear_model():
@@ -142,6 +143,7 @@ def test_slow_hoisting_follows_the_adiabatic_invariant():
 
 
 def test_single_pendulum_swings_at_the_textbook_period():
+    # small-angle pendulum: T = 2 pi sqrt(L/g) (Kibble & Berkshire, Classical Mechanics, 5th ed., 2004)
     rig = Rig(200.0, 0.0, 4.0, 1.0)
     res = simulate(rig, np.zeros(1), 0.002, settle_s=30.0, initial_angles_rad=(1e-3, 1e-3))
     s = res.hook_offset_m

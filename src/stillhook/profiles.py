@@ -18,6 +18,9 @@ import numpy as np
 
 from stillhook.errors import ConfigError
 
+#: S-curve jerk when none is set: the acceleration is reached in 0.25 s (our choice, no source).
+DEFAULT_JERK_PER_ACCEL_1_S = 4.0
+
 
 def _positive(name: str, value: float, *, zero_ok: bool = False) -> float:
     try:
@@ -163,9 +166,10 @@ def hoist_lengths(start_m: float, end_m: float, hoist_speed_m_s: float, hoist_ac
 def project_move(project, distance_m: float | None = None):
     """The project's reference move: trolley speed and hoist speed commands (m/s) at the drive cycle.
 
-    Uses ``[move] profile`` (trapezoid, or S-curve when ``[drive] max_jerk_m_s3`` is set), the
-    drive's speed and acceleration limits, and ``[move] hoist_to_m`` / ``hoist_start_s`` for
-    hoisting during travel (from the nominal rope length).
+    Uses ``[move] profile`` (trapezoid, or S-curve with ``[drive] max_jerk_m_s3``, by default
+    DEFAULT_JERK_PER_ACCEL_1_S times the acceleration limit), the drive's speed and acceleration
+    limits, and ``[move] hoist_to_m`` / ``hoist_start_s`` for hoisting during travel (from the
+    nominal rope length).
 
     Parameters
     ----------
@@ -181,7 +185,7 @@ def project_move(project, distance_m: float | None = None):
     d = move["distance_m"] if distance_m is None else distance_m
     Ts = drive["cycle_s"]
     if move["profile"] == "scurve":
-        jerk = drive["max_jerk_m_s3"] or 4.0 * drive["max_accel_m_s2"]
+        jerk = drive["max_jerk_m_s3"] or DEFAULT_JERK_PER_ACCEL_1_S * drive["max_accel_m_s2"]
         speed = s_curve(d, drive["max_speed_m_s"], drive["max_accel_m_s2"], jerk, Ts)
     else:
         speed = trapezoid(d, drive["max_speed_m_s"], drive["max_accel_m_s2"], Ts)

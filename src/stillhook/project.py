@@ -23,7 +23,7 @@ from __future__ import annotations
 import hashlib
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -136,8 +136,6 @@ class Project:
         SHA-256 (hex) of the project file's bytes, for provenance in emitted files.
     name : str
         File stem, e.g. ``"demo_project"``.
-    sections : dict
-        Every section with defaults filled in.
     given_sections : tuple of str
         The sections the file itself contains (an empty ``[notch]`` table counts).
     """
@@ -150,7 +148,6 @@ class Project:
     firmware: dict
     digest: str
     name: str = "project"
-    sections: dict = field(default_factory=dict, repr=False)
     given_sections: tuple[str, ...] = ()
 
 
@@ -262,8 +259,8 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
         if not lo <= hoist_to <= hi:
             raise ConfigError(f"[move] hoist_to_m = {hoist_to:g} is outside the rope range; "
                               f"allowed: a value in [{lo:g}, {hi:g}]")
-    return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name, s,
-                   tuple(section for section in SCHEMA if section in data))
+    return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name,
+                   given_sections=tuple(section for section in SCHEMA if section in data))
 
 
 def load_project(path: str | Path) -> Project:

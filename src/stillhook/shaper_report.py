@@ -12,6 +12,7 @@ import math
 
 import numpy as np
 
+from stillhook import CAUTIONS
 from stillhook.errors import DesignError
 from stillhook.shaper_forms import CLOSED_FORMS
 from stillhook.shapers import Shaper, insensitive_band_hz, worst_vibration
@@ -128,4 +129,5 @@ def shaper_request(method: str, freqs_hz, bands_hz=(), damping_ratio: float = 0.
         effects["impulses"] = on_grid.as_dict(cycle)["impulses"]
         effects["design_frequencies_hz"] = [float(f) for f in np.atleast_1d(design_freqs)]
         out["drive_cycle"] = effects
+    out["cautions"] = list(CAUTIONS)
     return out

@@ -23,16 +23,7 @@ COMMANDS = ("modes", "simulate", "shaper", "notch", "compare", "sweep", "emit", 
 
 
 def _available_commands() -> list[tuple[str, object]]:
-    found = []
-    for name in COMMANDS:
-        try:
-            module = importlib.import_module(f"stillhook.cli.{name}")
-        except ModuleNotFoundError as exc:
-            if exc.name == f"stillhook.cli.{name}":
-                continue  # command not built yet
-            raise
-        found.append((name, module))
-    return found
+    return [(name, importlib.import_module(f"stillhook.cli.{name}")) for name in COMMANDS]
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -61,6 +61,7 @@ def run(args: argparse.Namespace) -> int:
         print_json(out)
         return 0
     _print_request(out)
+    print_cautions()
     return 0
 
 
