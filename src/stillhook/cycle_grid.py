@@ -27,16 +27,9 @@ import math
 import numpy as np
 
 from stillhook.errors import DesignError
-from stillhook.shapers import Shaper, _check_damping, worst_vibration
+from stillhook.shapers import Shaper, _check_damping, check_cycle, worst_vibration
 
 REMEDIES = ("round", "split", "resolve")
-
-
-def _check_cycle(cycle_s: float) -> float:
-    c = float(cycle_s)
-    if not (math.isfinite(c) and c > 0.0):
-        raise DesignError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
-    return c
 
 
 def _pole_rows(k: np.ndarray, cycle_s: float, freqs_hz, zeta: float) -> np.ndarray:
@@ -128,7 +121,7 @@ def to_cycle_grid(shaper: Shaper, cycle_s: float, *, remedy: str = "split", freq
     Shaper
         On the grid (``shaper.on_grid(cycle_s)``); unchanged when already on it.
     """
-    cycle = _check_cycle(cycle_s)
+    cycle = check_cycle(cycle_s)
     zeta = _check_damping(damping_ratio)
     if remedy not in REMEDIES:
         raise DesignError(f"remedy {remedy!r} is not known; allowed: " + ", ".join(REMEDIES))
@@ -153,7 +146,7 @@ def grid_effects(shaper: Shaper, cycle_s: float, freqs_hz, damping_ratio: float 
         "resolve": {...}}``, each entry with ``vibration_at_design`` (list, fractions),
         ``worst_in_bands`` (list or None), ``duration_s`` and ``n_impulses``.
     """
-    cycle = _check_cycle(cycle_s)
+    cycle = check_cycle(cycle_s)
     zeta = _check_damping(damping_ratio)
     freqs = [float(f) for f in np.atleast_1d(freqs_hz)]
 

@@ -39,6 +39,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import finite_number
 from stillhook.errors import ConfigError
 from stillhook.rig import Rig
 
@@ -200,14 +201,8 @@ def simulate(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=None, hoist_s
     """
     from scipy.integrate import solve_ivp
 
-    try:
-        Ts = float(cycle_s)
-    except (TypeError, ValueError):
-        raise ConfigError(f"cycle_s = {cycle_s!r} is not a number; allowed: a finite number > 0") from None
-    if not (math.isfinite(Ts) and Ts > 0):
-        raise ConfigError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
-    if not (math.isfinite(settle_s) and settle_s > 0):
-        raise ConfigError(f"settle_s = {settle_s!r} is out of range; allowed: a finite number > 0")
+    Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+    settle_s = finite_number("settle_s", settle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
     v_cmd = _as_samples("speed_m_s", speed_m_s)
     if rope_length_m is not None and hoist_speed_m_s is not None:
         raise ConfigError("give rope_length_m or hoist_speed_m_s, not both")

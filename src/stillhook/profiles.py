@@ -16,6 +16,7 @@ import math
 
 import numpy as np
 
+from stillhook.checks import finite_number
 from stillhook.errors import ConfigError
 
 #: S-curve jerk when none is set: the acceleration is reached in 0.25 s (our choice, no source).
@@ -23,15 +24,8 @@ DEFAULT_JERK_PER_ACCEL_1_S = 4.0
 
 
 def _positive(name: str, value: float, *, zero_ok: bool = False) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ConfigError(f"{name} = {value!r} is not a number; allowed: a finite number "
-                          + (">= 0" if zero_ok else "> 0")) from None
-    if not math.isfinite(v) or v < 0 or (v == 0 and not zero_ok):
-        raise ConfigError(f"{name} = {value!r} is out of range; allowed: a finite number "
-                          + (">= 0" if zero_ok else "> 0"))
-    return v
+    return finite_number(name, value, allowed="a finite number " + (">= 0" if zero_ok else "> 0"),
+                         lo=0.0, lo_ok=zero_ok)
 
 
 def _ramp_cycles(speed_m_s: float, accel_m_s2: float, cycle_s: float) -> int:
@@ -118,9 +112,7 @@ def pendant_steps(steps, max_accel_m_s2: float, cycle_s: float) -> np.ndarray:
         except (TypeError, ValueError):
             raise ConfigError(f"pendant step {i} = {item!r}; allowed: (duration_s, speed_m_s)") from None
         n = round(_positive(f"pendant step {i} duration_s", duration_s, zero_ok=True) / Ts)
-        s = float(speed)
-        if not math.isfinite(s):
-            raise ConfigError(f"pendant step {i} speed_m_s = {speed!r}; allowed: a finite number")
+        s = finite_number(f"pendant step {i} speed_m_s", speed, allowed="a finite number")
         targets.extend([s] * n)
     dv = a_max * Ts
     out = [0.0]

@@ -38,6 +38,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import finite_number
 from stillhook.errors import RigError
 
 #: Standard gravity (m/s^2), the default.
@@ -45,18 +46,6 @@ STANDARD_GRAVITY_M_S2 = 9.80665
 #: Default sway damping ratio: none. Real ropes give 0.001-0.01 (common practice, no source);
 #: designing for zero damping is the conservative choice for residual sway.
 DEFAULT_DAMPING_RATIO = 0.0
-
-
-def _check_number(name: str, value: float, *, minimum: float, inclusive: bool, allowed: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise RigError(f"{name} = {value!r} is not a number; allowed: {allowed}") from None
-    if not math.isfinite(v):
-        raise RigError(f"{name} = {value!r} is not finite; allowed: {allowed}")
-    if v < minimum or (v == minimum and not inclusive):
-        raise RigError(f"{name} = {v:g} is out of range; allowed: {allowed}")
-    return v
 
 
 @dataclass(frozen=True)
@@ -135,19 +124,18 @@ class Rig:
     damping_ratio: float = DEFAULT_DAMPING_RATIO
 
     def __post_init__(self) -> None:
-        checks = (
-            ("hook_mass_kg", 0.0, False, "a finite number > 0"),
-            ("payload_mass_kg", 0.0, True, "a finite number >= 0"),
-            ("rope_length_m", 0.0, False, "a finite number > 0"),
-            ("rigging_length_m", 0.0, True, "a finite number >= 0"),
-            ("gravity_m_s2", 0.0, False, "a finite number > 0"),
-            ("damping_ratio", 0.0, True, "a finite number in [0, 1)"),
+        checks = (  # name, lower bound included?, upper bound
+            ("hook_mass_kg", False, None, "a finite number > 0"),
+            ("payload_mass_kg", True, None, "a finite number >= 0"),
+            ("rope_length_m", False, None, "a finite number > 0"),
+            ("rigging_length_m", True, None, "a finite number >= 0"),
+            ("gravity_m_s2", False, None, "a finite number > 0"),
+            ("damping_ratio", True, 1.0, "a finite number in [0, 1)"),
         )
-        for name, lo, inclusive, allowed in checks:
-            value = _check_number(name, getattr(self, name), minimum=lo, inclusive=inclusive, allowed=allowed)
+        for name, lo_ok, hi, allowed in checks:
+            value = finite_number(name, getattr(self, name), allowed=allowed, error=RigError,
+                                  lo=0.0, lo_ok=lo_ok, hi=hi, hi_ok=False)
             object.__setattr__(self, name, value)
-        if self.damping_ratio >= 1.0:
-            raise RigError(f"damping_ratio = {self.damping_ratio:g} is out of range; allowed: [0, 1)")
 
     # -- structure -----------------------------------------------------------------------
     @property

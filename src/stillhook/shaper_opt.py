@@ -33,6 +33,8 @@ from stillhook.shapers import (
     _check_damping,
     _check_frequency,
     _check_tolerance,
+    check_below_half_rate,
+    check_cycle,
     insensitive_band_hz,
     worst_vibration,
 )
@@ -58,13 +60,8 @@ def _check_bands(bands_hz) -> list[tuple[float, float]]:
 def _check_cycle(cycle_s, bands) -> float | None:
     if cycle_s is None:
         return None
-    c = float(cycle_s)
-    if not (math.isfinite(c) and c > 0.0):
-        raise DesignError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
-    f_max = max(hi for _, hi in bands)
-    if f_max > 0.5 / c:
-        raise DesignError(f"frequency {f_max:g} Hz is above half the drive rate ({0.5 / c:g} Hz for a "
-                          f"{c:g} s cycle); allowed: frequencies <= {0.5 / c:g} Hz")
+    c = check_cycle(cycle_s)
+    check_below_half_rate([max(hi for _, hi in bands)], c)
     return c
 
 

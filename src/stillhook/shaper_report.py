@@ -15,7 +15,7 @@ import numpy as np
 from stillhook import CAUTIONS
 from stillhook.errors import DesignError
 from stillhook.shaper_forms import CLOSED_FORMS
-from stillhook.shapers import Shaper, insensitive_band_hz, worst_vibration
+from stillhook.shapers import Shaper, check_below_half_rate, check_cycle, insensitive_band_hz, worst_vibration
 
 
 def _finite(name: str, value, allowed: str) -> float:
@@ -53,14 +53,8 @@ def check_request(method: str, freqs_hz, bands_hz, damping_ratio, tolerance_pct,
         bands.append((lo, hi))
     cycle = None
     if cycle_s is not None:
-        cycle = _finite("cycle", cycle_s, "a drive cycle in s > 0")
-        if cycle <= 0.0:
-            raise DesignError(f"cycle = {cycle:g} s is out of range; allowed: > 0 s")
-        nyquist = 0.5 / cycle
-        for f in freqs + [hi for _, hi in bands]:
-            if f > nyquist:
-                raise DesignError(f"frequency {f:g} Hz is above half the drive rate ({nyquist:g} Hz for a "
-                                  f"{cycle:g} s cycle); allowed: frequencies <= {nyquist:g} Hz")
+        cycle = check_cycle(cycle_s)
+        check_below_half_rate(freqs + [hi for _, hi in bands], cycle)
     if method == "band":
         if freqs:
             raise DesignError("method 'band' takes its bands from --band LO HI (repeat for a second mode), "

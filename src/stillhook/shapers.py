@@ -30,6 +30,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import finite_number
 from stillhook.errors import DesignError
 
 #: Impulse times closer than this (s) are merged by :meth:`Shaper.convolve` and the grid code.
@@ -41,25 +42,32 @@ _UNBOUNDED_RATIO = 100.0
 
 
 def _check_frequency(freq_hz: float) -> float:
-    f = float(freq_hz)
-    if not (math.isfinite(f) and f > 0.0):
-        raise DesignError(f"frequency {freq_hz!r} Hz is out of range; allowed: a finite number > 0")
-    return f
+    return finite_number("frequency (Hz)", freq_hz, allowed="a finite number > 0", error=DesignError,
+                         lo=0.0, lo_ok=False)
 
 
 def _check_damping(damping_ratio: float) -> float:
-    z = float(damping_ratio)
-    if not (math.isfinite(z) and 0.0 <= z < 1.0):
-        raise DesignError(f"damping ratio {damping_ratio!r} is out of range; allowed: 0 <= damping < 1")
-    return z
+    return finite_number("damping ratio", damping_ratio, allowed="0 <= damping < 1", error=DesignError,
+                         lo=0.0, hi=1.0, hi_ok=False)
 
 
 def _check_tolerance(tolerance: float) -> float:
-    v = float(tolerance)
-    if not (math.isfinite(v) and 0.0 < v < 1.0):
-        raise DesignError(f"tolerance {tolerance!r} (fraction) is out of range; allowed: 0 < tolerance < 1 "
-                          "(e.g. 0.05 for 5 %)")
-    return v
+    return finite_number("tolerance (fraction)", tolerance, error=DesignError, lo=0.0, lo_ok=False, hi=1.0,
+                         hi_ok=False, allowed="0 < tolerance < 1 (e.g. 0.05 for 5 %)")
+
+
+def check_cycle(cycle_s: float) -> float:
+    """The drive cycle (s) as a finite number > 0, else DesignError."""
+    return finite_number("cycle_s", cycle_s, allowed="a finite number > 0", error=DesignError, lo=0.0, lo_ok=False)
+
+
+def check_below_half_rate(freqs_hz, cycle_s: float) -> None:
+    """DesignError naming the first frequency above half the drive rate 1 / (2 cycle_s)."""
+    nyquist = 0.5 / cycle_s
+    for f in freqs_hz:
+        if f > nyquist:
+            raise DesignError(f"frequency {f:g} Hz is above half the drive rate ({nyquist:g} Hz for a "
+                              f"{cycle_s:g} s cycle); allowed: frequencies <= {nyquist:g} Hz")
 
 
 def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:
@@ -234,9 +242,7 @@ class Shaper:
 
     def delays_cycles(self, cycle_s: float) -> np.ndarray:
         """Impulse delays in whole drive cycles; DesignError if the shaper is not on the grid."""
-        cycle_s = float(cycle_s)
-        if not (math.isfinite(cycle_s) and cycle_s > 0.0):
-            raise DesignError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
+        cycle_s = check_cycle(cycle_s)
         if not self.on_grid(cycle_s):
             raise DesignError(f"shaper {self.name or '(unnamed)'} has impulse times that are not whole "
                               f"multiples of the drive cycle {cycle_s:g} s; use stillhook.cycle_grid.to_cycle_grid")
