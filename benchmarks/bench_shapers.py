@@ -39,10 +39,10 @@ def main() -> None:
 
     import scipy.optimize
 
-    import stillhook.design as design_mod
-    import stillhook.shaper_opt as opt
+    import stillhook.shaping.band_design as opt
+    import stillhook.shaping.envelope_design as design_mod
     from stillhook.project import load_demo_project
-    from stillhook.shapers import ei2, zvd
+    from stillhook.shaping.closed_forms import ei2, zvd
 
     # -- V over 10,000 frequencies -------------------------------------------------------------
     s = zvd(0.2, 0.01).convolve(ei2(0.6, 0.01))

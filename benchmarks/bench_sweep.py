@@ -4,7 +4,7 @@ Prints, for 256 and 1,024 rigs of the demo envelope (16 x 16 and 32 x 32 grids):
 
 - the sweep's wall time as a fresh process (``python -m stillhook sweep demo --grid ... --json``),
   i.e. counting interpreter start-up, imports, the design and the sweep itself;
-- the loop's wall time: the same design, then ``stillhook.dynamics.simulate`` for every rig and
+- the loop's wall time: the same design, then ``stillhook.sim.dynamics.simulate`` for every rig and
   every design (unshaped, shaper, schedule: the same commands the sweep uses);
 - the speed ratio and the largest disagreement, as a fraction of the unshaped residual at that rig;
 - the times of the design, the firmware emit and the whole demo.
@@ -42,7 +42,8 @@ def sweep_subprocess(n_side: int, keys) -> tuple[float, dict]:
 
 def cold_design_s() -> float:
     """Time of design_for_project(demo) in a fresh process (the library caches designs in-process)."""
-    code = ("import time; from stillhook.project import load_demo_project; from stillhook.design import "
+    code = ("import time; from stillhook.project import load_demo_project; "
+            "from stillhook.shaping.envelope_design import "
             "design_for_project; p = load_demo_project(); t = time.perf_counter(); design_for_project(p); "
             "print(time.perf_counter() - t)")
     out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True)
@@ -55,10 +56,10 @@ def solve_ivp_loop(project, n_side: int, t_design: float) -> dict:
     The design is computed (or taken from the in-process cache) outside the timing and counted
     as ``t_design``, its cold time in a fresh process.
     """
-    from stillhook.design import design_for_project
-    from stillhook.dynamics import simulate
-    from stillhook.profiles import trapezoid
-    from stillhook.sweep import DEFAULT_DISTANCE_M, grid_points, project_designs
+    from stillhook.shaping.envelope_design import design_for_project
+    from stillhook.sim.dynamics import simulate
+    from stillhook.sim.profiles import trapezoid
+    from stillhook.study.sweep import DEFAULT_DISTANCE_M, grid_points, project_designs
 
     design = design_for_project(project)
     drive = project.drive
@@ -83,8 +84,8 @@ def solve_ivp_loop(project, n_side: int, t_design: float) -> dict:
 
 def in_process_sweep_s(project, n_side: int) -> float:
     """Wall time of sweep_project in this process with the design already made (best of 3)."""
-    from stillhook.design import design_for_project
-    from stillhook.sweep import sweep_project
+    from stillhook.shaping.envelope_design import design_for_project
+    from stillhook.study.sweep import sweep_project
 
     design = design_for_project(project)
     best = math.inf
@@ -161,8 +162,8 @@ def main() -> int:
               f"{100 * d['median_rel']:.3f} %, {100 * d['share_within_1pct']:.1f} % of runs within 1 %; max "
               f"{100 * d['max_rel_peak']:.3f} % of the peak sway during the move; max {1000 * d['max_abs_m']:.2f} mm")
 
-    from stillhook.design import design_for_project
-    from stillhook.emit import plan_for_project, render_files
+    from stillhook.firmware.plan import plan_for_project, render_files
+    from stillhook.shaping.envelope_design import design_for_project
 
     design_for_project(project)  # cached: the emit time below is the emit's own
     print()

@@ -63,7 +63,7 @@ def check(emit_dir: Path, project: str, re_emit: bool) -> list[str]:
         problems.append(f"emitted by stillhook {facts['version']} / {manifest['tool_version']}, installed "
                         f"{stillhook.__version__}: a re-emit may differ")
     if re_emit:
-        from stillhook.emit import write_emit
+        from stillhook.firmware.plan import write_emit
         from stillhook.project import load_project_or_demo
 
         with tempfile.TemporaryDirectory() as tmp:

@@ -2,8 +2,8 @@
 
 Reads the emitted folder's manifest.json (integer shaper rows, rope-length lookup, format) and a
 recording CSV, runs the same cycle as common/travel_task.c through the integer reference
-(stillhook.fixedpoint.ScheduleTable.lookup, the creep limit outside the envelope,
-stillhook.fixedpoint_shaper.ShaperModel.run), and writes the shaped-output CSV the C programs must
+(stillhook.firmware.qformat.ScheduleTable.lookup, the creep limit outside the envelope,
+stillhook.firmware.shaper_model.ShaperModel.run), and writes the shaped-output CSV the C programs must
 reproduce byte for byte.
 
 Usage: python expected_output.py --manifest DIR/manifest.json --recording REC.csv --out EXPECTED.csv
@@ -18,8 +18,8 @@ from pathlib import Path
 import numpy as np
 from recording import CREEP_LIMIT, format_output, read_recording
 
-from stillhook.fixedpoint import STATUS_OK, ScheduleTable
-from stillhook.fixedpoint_shaper import ShaperModel, ShaperTable
+from stillhook.firmware.qformat import STATUS_OK, ScheduleTable
+from stillhook.firmware.shaper_model import ShaperModel, ShaperTable
 
 
 def tables_from_manifest(manifest: dict) -> tuple[ShaperTable, ScheduleTable]:

@@ -4,7 +4,7 @@ An invented pendant session on the demo crane (stillhook's built-in demo project
 picked from a pit with 9.8 m of rope out, beyond the designed 1.2-9.5 m envelope, and hoisted
 to 8.2 m while the operator travels the trolley: idle, creep forward, full speed, creep to
 position, pause, inch back, stop. The hoist and the pendant follow the drive's own limits
-(stillhook.profiles.pendant_steps and hoist_lengths), sampled at the drive cycle.
+(stillhook.sim.profiles.pendant_steps and hoist_lengths), sampled at the drive cycle.
 
 Usage: python make_recording.py [--out PATH]
 Deterministic: the same stillhook version writes the same bytes.
@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 from recording import RECORDING_HEADER, SPEED_100PCT
 
-from stillhook.profiles import hoist_lengths, pendant_steps
+from stillhook.sim.profiles import hoist_lengths, pendant_steps
 from stillhook.project import load_demo_project
 
 DEFAULT_OUT = Path(__file__).resolve().parents[1] / "data" / "operator_recording.csv"

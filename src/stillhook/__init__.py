@@ -1,17 +1,68 @@
 """stillhook: two-mode sway models, command shapers, notch filters and fixed-point C for crane loads.
 
-The package is organised one module per concept; see DEVELOPERS.md for the map.
-Heavy modules (scipy, python-control, matplotlib) are imported where they are used,
-so ``import stillhook`` stays cheap.
+The package is grouped by the stage of the job, in data-flow order (see DEVELOPERS.md)::
+
+    project  ->  model  ->  sim  ->  shaping / notch  ->  firmware  ->  study  ->  report  ->  cli
+
+This top level offers the names a user scripts with, loaded lazily on first use so that
+``import stillhook`` stays cheap (no scipy, matplotlib or python-control until needed).
 """
 
-__version__ = "0.1.0"
+from __future__ import annotations
 
-CAUTIONS = (
-    "Anti-sway control is not a safety function: it does not replace limit switches, "
-    "overload protection, brakes or the operator's judgement.",
-    "Verify every design on the real crane at low speed before normal operation.",
-    "Use the design only inside the envelope it was made for (rope length, payload mass, "
-    "drive cycle, speed and acceleration limits).",
-    "Follow local codes, the crane maker's instructions and licensed practice.",
-)
+import importlib
+
+from stillhook.version import __version__
+
+#: name -> module that defines it, grouped by stage (each resolves; tests/base/test_api.py checks).
+_API = {
+    # project file and cautions
+    "load_project": "stillhook.project", "load_demo_project": "stillhook.project",
+    "load_project_or_demo": "stillhook.project", "project_from_dict": "stillhook.project",
+    "Project": "stillhook.project", "CAUTIONS": "stillhook.cautions",
+    # errors
+    "StillhookError": "stillhook.errors", "ConfigError": "stillhook.errors", "RigError": "stillhook.errors",
+    "DesignError": "stillhook.errors", "EmitError": "stillhook.errors", "InputFileError": "stillhook.errors",
+    # model
+    "Rig": "stillhook.model.rig", "Envelope": "stillhook.model.envelope",
+    "mode_frequencies_rad_s": "stillhook.model.rig",
+    # motion and simulation
+    "trapezoid": "stillhook.sim.profiles", "s_curve": "stillhook.sim.profiles",
+    "project_move": "stillhook.sim.profiles", "simulate": "stillhook.sim.dynamics",
+    "SimResult": "stillhook.sim.dynamics",
+    # shaping
+    "Shaper": "stillhook.shaping.shaper", "residual_vibration": "stillhook.shaping.shaper",
+    "zv": "stillhook.shaping.closed_forms", "zvd": "stillhook.shaping.closed_forms",
+    "ei": "stillhook.shaping.closed_forms", "umzv": "stillhook.shaping.closed_forms",
+    "band_shaper": "stillhook.shaping.band_design", "two_mode_shapers": "stillhook.shaping.band_design",
+    "design_for_project": "stillhook.shaping.envelope_design",
+    "schedule_for_project": "stillhook.shaping.envelope_design",
+    # notch
+    "design_notches": "stillhook.notch.design", "notch_for_project": "stillhook.notch.design",
+    "NotchDesign": "stillhook.notch.cascade",
+    # firmware
+    "plan_for_project": "stillhook.firmware.plan", "render_files": "stillhook.firmware.plan",
+    "write_emit": "stillhook.firmware.plan",
+    # study
+    "compare_project": "stillhook.study.compare", "sweep_project": "stillhook.study.sweep",
+    # report
+    "build_study": "stillhook.report.study", "write_report": "stillhook.report.folder",
+    "run_demo": "stillhook.report.demo",
+}
+
+__all__ = ["__version__", *_API]
+
+
+def __getattr__(name: str):
+    """Load an API name from its stage module on first use (PEP 562)."""
+    try:
+        module = _API[name]
+    except KeyError:
+        raise AttributeError(f"module 'stillhook' has no attribute {name!r}") from None
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

@@ -56,3 +56,10 @@ def write_files(out_dir: str | Path, files: dict[str, str | bytes]) -> list[Path
         raise InputFileError(f"cannot write to {str(out)!r}: {exc.strerror or exc}") from None
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
+
+
+def check_out_dir(out_dir) -> None:
+    """Refuse early (before any work) an output path that exists and is not a folder."""
+    p = Path(out_dir)
+    if p.exists() and not p.is_dir():
+        raise InputFileError(f"output path {str(p)!r} exists and is not a folder; allowed: a folder or a new path")

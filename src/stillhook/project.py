@@ -28,8 +28,8 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from stillhook.envelope import Envelope
 from stillhook.errors import ConfigError, InputFileError, StillhookError
+from stillhook.model.envelope import Envelope
 
 DEMO_PROJECT_NAME = "demo_project.toml"
 

@@ -15,8 +15,10 @@ import argparse
 import importlib
 import sys
 
-from stillhook import __version__
 from stillhook.errors import StillhookError
+from stillhook.version import __version__
+
+__all__ = ["COMMANDS", "build_parser", "main"]
 
 #: Sub-commands in the order ``--help`` lists them; each is a module of this package.
 COMMANDS = ("modes", "simulate", "shaper", "notch", "compare", "sweep", "emit", "report", "demo")

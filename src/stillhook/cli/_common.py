@@ -48,6 +48,6 @@ def print_bullets(title: str, items) -> None:
 
 def print_cautions() -> None:
     """The safety cautions every design output carries (stillhook.CAUTIONS)."""
-    from stillhook import CAUTIONS
+    from stillhook.cautions import CAUTIONS
 
     print_bullets("Cautions", CAUTIONS)

@@ -30,9 +30,9 @@ def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook import CAUTIONS
-    from stillhook.compare import compare_project
+    from stillhook.cautions import CAUTIONS
     from stillhook.project import load_project_or_demo
+    from stillhook.study.compare import compare_project
 
     project = load_project_or_demo(args.project)
     result = compare_project(project, distance_m=args.distance, include_hoist=not args.no_hoist)

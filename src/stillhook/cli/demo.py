@@ -21,7 +21,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def _summary(result, out: str) -> list[str]:
-    from stillhook import CAUTIONS
+    from stillhook.cautions import CAUTIONS
 
     st = result.study
     p = st.project
@@ -63,7 +63,7 @@ def _summary(result, out: str) -> list[str]:
 
 def run(args: argparse.Namespace) -> int:
     from stillhook.cli.report import stage_printer
-    from stillhook.demo import run_demo
+    from stillhook.report.demo import run_demo
 
     result = run_demo(args.out, grid=tuple(args.grid) if args.grid else None, selftest=not args.no_selftest,
                       progress=stage_printer(sys.stderr.isatty()))

@@ -22,7 +22,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook.emit import write_emit
+    from stillhook.firmware.plan import write_emit
     from stillhook.project import load_project_or_demo
 
     project = load_project_or_demo(args.project)

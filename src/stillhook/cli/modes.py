@@ -26,8 +26,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from stillhook.errors import ConfigError
+    from stillhook.model.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig
     from stillhook.project import load_project_or_demo
-    from stillhook.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig
 
     given = [n for n, _, _ in _RIG_OPTIONS if getattr(args, n) is not None]
     bands = None

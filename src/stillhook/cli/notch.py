@@ -37,9 +37,9 @@ def _one_or_list(values):
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook import CAUTIONS
+    from stillhook.cautions import CAUTIONS
     from stillhook.errors import ConfigError
-    from stillhook.notch import design_notches, notch_for_project
+    from stillhook.notch.design import design_notches, notch_for_project
     from stillhook.project import load_project_or_demo
 
     width, depth = _one_or_list(args.width_hz), _one_or_list(args.depth_db)

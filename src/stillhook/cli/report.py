@@ -38,7 +38,8 @@ def stage_printer(enabled: bool):
 
 def run(args: argparse.Namespace) -> int:
     from stillhook.project import load_project_or_demo
-    from stillhook.report import REPORT_GRID, write_report
+    from stillhook.report.folder import write_report
+    from stillhook.report.study import REPORT_GRID
 
     project = load_project_or_demo(args.project)
     grid = tuple(args.grid) if args.grid else REPORT_GRID

@@ -51,7 +51,7 @@ def run(args: argparse.Namespace) -> int:
         return _run_project(args)
     if args.method is None:
         raise ConfigError("missing --method; allowed: " + ", ".join(METHODS) + " (or give a project file)")
-    from stillhook.shaper_report import shaper_request
+    from stillhook.shaping.request import shaper_request
 
     out = shaper_request(method=args.method, freqs_hz=args.frequency_hz or [], bands_hz=args.band or [],
                          damping_ratio=0.0 if args.damping is None else args.damping,
@@ -114,8 +114,8 @@ def _print_request(out: dict) -> None:
 
 
 def _run_project(args) -> int:
-    from stillhook.design import design_for_project
     from stillhook.project import load_project_or_demo
+    from stillhook.shaping.envelope_design import design_for_project
 
     project = load_project_or_demo(args.project)
     d = design_for_project(project)

@@ -18,10 +18,10 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook.dynamics import simulate
-    from stillhook.profiles import project_move
     from stillhook.project import load_project_or_demo
-    from stillhook.sim_output import sim_csv, sim_plot_png
+    from stillhook.sim.dynamics import simulate
+    from stillhook.sim.profiles import project_move
+    from stillhook.sim.recording import sim_csv, sim_plot_png
 
     project = load_project_or_demo(args.project)
     speed, hoist = project_move(project, args.distance)

@@ -15,7 +15,7 @@ from stillhook.cli._common import (
 
 HELP = "residual sway of the unshaped move and of each design over the whole envelope (fast linear sweep)"
 
-#: Mirrors stillhook.sweep.DEFAULT_DISTANCE_M / DEFAULT_GRID (kept here so --help imports nothing heavy).
+#: Mirrors stillhook.study.sweep.DEFAULT_DISTANCE_M / DEFAULT_GRID (kept here so --help imports nothing heavy).
 _DEFAULT_DISTANCE_M = 6.0
 _DEFAULT_GRID = (21, 21)
 
@@ -39,7 +39,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     add_json_argument(p)
 
 
-class _Progress:
+class Progress:
     """A one-line progress bar on stderr."""
 
     def __init__(self, stream):
@@ -55,10 +55,10 @@ class _Progress:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook import CAUTIONS
+    from stillhook.cautions import CAUTIONS
     from stillhook.errors import ConfigError
     from stillhook.project import load_project_or_demo
-    from stillhook.sweep import DEFAULT_GRID, DESIGN_KEYS, sweep_project
+    from stillhook.study.sweep import DEFAULT_GRID, DESIGN_KEYS, sweep_project
 
     if args.grid is not None and args.samples is not None:
         raise ConfigError("give --grid or --samples, not both")
@@ -69,7 +69,7 @@ def run(args: argparse.Namespace) -> int:
         sys.stderr.write("sweep: designing the filters ...\n")
     result = sweep_project(project, grid=tuple(args.grid) if args.grid else DEFAULT_GRID, samples=args.samples,
                            seed=args.seed, distance_m=args.distance, keys=keys, check=not args.no_check,
-                           progress=_Progress(sys.stderr) if show else None)
+                           progress=Progress(sys.stderr) if show else None)
     if args.json:
         print_json({"project": project.name, "input_digest_sha256": project.digest, **result.as_dict(),
                     "cautions": list(CAUTIONS)})

@@ -1,0 +1,16 @@
+"""The cautions every design output carries (README, reports, emitted C, CLI output).
+
+They are added at the output edge only: the command line, the report and the emitted files.
+Design objects do not carry them.
+"""
+
+__all__ = ["CAUTIONS"]
+
+CAUTIONS = (
+    "Anti-sway control is not a safety function: it does not replace limit switches, "
+    "overload protection, brakes or the operator's judgement.",
+    "Verify every design on the real crane at low speed before normal operation.",
+    "Use the design only inside the envelope it was made for (rope length, payload mass, "
+    "drive cycle, speed and acceleration limits).",
+    "Follow local codes, the crane maker's instructions and licensed practice.",
+)

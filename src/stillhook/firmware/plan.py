@@ -1,0 +1,331 @@
+"""Fixed-point C for the drive: design -> integer tables -> C text -> a self-contained folder.
+
+Pipeline (pure until the last step)::
+
+    plan_for_project(project)      design the schedule (and the notch), quantize -> EmitPlan
+    render_files(plan)             EmitPlan -> {file name: text}   (runtime copied from codegen/)
+    write_emit(project, out_dir)   both, then write every file at once (all or nothing)
+
+What gets emitted
+    * the shaper schedule: one impulse row per rope length of ``stillhook.shaping.envelope_design.schedule_for_project``
+      (by default a length-scheduled two-mode shaper within the project's tolerance over the
+      envelope), amplitudes as integers summing to exactly 2^F, delays in whole drive cycles;
+    * the rope-length lookup: thresholds in input counts (``[firmware] rope_length_lsb_m`` metres
+      per count) that reproduce the schedule's own row rule (see :func:`stillhook.shaping.lookup.lookup_thresholds`);
+    * the notch cascade, only when asked: ``[firmware] notch = true``, or, with that key unset, when
+      the project file has a ``[notch]`` section (an empty ``[notch]`` table asks for the
+      default notch). Its coefficients are checked for notch shift (:mod:`stillhook.firmware.notch_tables`);
+      when Q15 fails, the whole folder moves to Q31 if ``[firmware] escalate_to_q31`` (default) and
+      the format was not forced by the caller, else the emit is refused with the numbers.
+    * a RAM check: accumulator ring + notch state must fit ``[firmware] ram_budget_bytes``;
+    * an accumulator check: the rows' amplitudes, all rows together, must fit the ring's slots
+      whatever the row switches (:func:`stillhook.firmware.shaper_model.abs_sum_limit`).
+
+Notes
+-----
+Unity-gain amplitude rounding and the runtime contracts: :mod:`stillhook.firmware.qformat` and
+:mod:`stillhook.firmware.shaper_model` (scatter-form shaper, exact distance across row switches).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from stillhook.cautions import CAUTIONS
+from stillhook.errors import ConfigError, EmitError
+from stillhook.firmware.notch_tables import choose_notch_format
+from stillhook.firmware.qformat import FRACTION_BITS, ScheduleTable, quantize_amplitudes
+from stillhook.firmware.render_c import render_readme, render_tables_c, render_tables_h
+from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
+from stillhook.firmware.selftest import render_selftest
+from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
+from stillhook.notch.design import notch_for_project
+from stillhook.outputs import to_json, write_files
+from stillhook.project import SCHEMA
+from stillhook.shaping.envelope_design import schedule_for_project
+from stillhook.shaping.lookup import LOOKUP_RULES, lookup_thresholds
+from stillhook.version import __version__
+
+__all__ = [
+    "EmitPlan", "ShaperRow", "emit_files", "notch_requested", "plan_for_project", "quantize_shaper", "render_files",
+    "write_emit",
+]
+
+
+# -- schedule rows -------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class ShaperRow:
+    """One schedule row as emitted: rope length, integer amplitudes, whole-cycle delays."""
+
+    rope_length_m: float
+    amplitudes: tuple[int, ...]
+    delays_cycles: tuple[int, ...]
+    name: str = ""
+
+    def as_dict(self) -> dict:
+        return {"rope_length_m": self.rope_length_m, "amplitudes": list(self.amplitudes),
+                "delays_cycles": list(self.delays_cycles), "name": self.name}
+
+
+def quantize_shaper(shaper, cycle_s: float, fmt: str) -> tuple[np.ndarray, np.ndarray]:
+    """Integer (amplitudes, delays) of an on-grid shaper: coincident delays merged, then rounded.
+
+    Parameters
+    ----------
+    shaper : stillhook.shaping.shaper.Shaper
+        On the drive-cycle grid (``shaper.delays_cycles(cycle_s)`` must succeed).
+    cycle_s : float > 0
+    fmt : {'q15', 'q31'}
+
+    Returns
+    -------
+    (amplitudes, delays) : int64 arrays, amplitudes summing to exactly 2^F, delays ascending.
+        Impulses whose integer amplitude rounds to 0 are dropped (the sum is unchanged).
+    """
+    d = np.asarray(shaper.delays_cycles(cycle_s), dtype=np.int64)
+    a = np.asarray(shaper.amplitudes, dtype=float)
+    uniq, inverse = np.unique(d, return_inverse=True)
+    merged = np.zeros(uniq.size)
+    np.add.at(merged, inverse, a)
+    q = quantize_amplitudes(merged, fmt)
+    keep = q != 0
+    return q[keep], uniq[keep]
+
+
+def _schedule_rule(schedule) -> str:
+    rule = getattr(schedule, "lookup_rule", "nearest")
+    if rule not in LOOKUP_RULES:
+        raise EmitError(f"schedule lookup rule {rule!r} is not supported; allowed: " + ", ".join(LOOKUP_RULES))
+    return rule
+
+
+# -- the plan ------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class EmitPlan:
+    """Everything the emitted files say, as objects (no text yet)."""
+
+    prefix: str
+    fmt: str
+    fmt_requested: str
+    format_reason: str | None
+    cycle_s: float
+    digest: str
+    project_name: str
+    envelope_summary: dict
+    tolerance: float
+    lookup_rule: str
+    rows: tuple[ShaperRow, ...]
+    shaper: ShaperTable
+    schedule: ScheduleTable
+    notch: object | None  # stillhook.firmware.notch_tables.NotchCheck
+    ram_budget_bytes: int
+    design_note: str = ""
+
+    def sizes(self) -> dict:
+        """RAM (caller buffers) and flash (const tables) in bytes."""
+        notch_state = self.notch.table.state_bytes() if self.notch is not None else 0
+        notch_flash = self.notch.table.flash_bytes() if self.notch is not None else 0
+        ram = self.shaper.ring_bytes() + notch_state
+        instances = INSTANCE_BYTES_32BIT["shaper"] + (INSTANCE_BYTES_32BIT["notch"] if self.notch else 0)
+        return {
+            "ring_slots": self.shaper.ring_len,
+            "ring_slot_bytes": SLOT_BYTES[self.fmt],
+            "ring_bytes": self.shaper.ring_bytes(),
+            "notch_state_bytes": notch_state,
+            "ram_bytes": ram,
+            "instance_bytes_32bit": instances,
+            "ram_budget_bytes": self.ram_budget_bytes,
+            "shaper_table_bytes": self.shaper.flash_bytes(),
+            "schedule_table_bytes": self.schedule.flash_bytes(),
+            "notch_table_bytes": notch_flash,
+            "flash_table_bytes": self.shaper.flash_bytes() + self.schedule.flash_bytes() + notch_flash,
+        }
+
+    def manifest(self, files: list[str]) -> dict:
+        """The manifest.json content (deterministic key order)."""
+        s = self.schedule
+        out = {
+            "tool": "stillhook",
+            "tool_version": __version__,
+            "runtime_version": RUNTIME_VERSION,
+            "project": self.project_name,
+            "input_digest_sha256": self.digest,
+            "prefix": self.prefix,
+            "format": self.fmt,
+            "format_requested": self.fmt_requested,
+            "format_reason": self.format_reason,
+            "cycle_s": self.cycle_s,
+            "envelope": self.envelope_summary,
+            "tolerance": self.tolerance,
+            "design_note": self.design_note,
+            "amplitude_full_scale": 1 << FRACTION_BITS[self.fmt],
+            "rope_length_input": {
+                "type": "uint32", "lsb_m": s.lsb_m, "min_counts": s.length_min, "max_counts": s.length_max,
+                "lookup_rule": self.lookup_rule, "thresholds_counts": [int(t) for t in s.thresholds]},
+            "shaper_rows": [r.as_dict() for r in self.rows],
+            "shaper_form": "scatter: each sample spread with the row selected at its arrival; "
+                           "rounding remainder carried (exact distance across row switches)",
+            "ring_len": self.shaper.ring_len,
+            "ring_slot_bytes": SLOT_BYTES[self.fmt],
+            "slot_shift": SLOT_SHIFT,
+            "amplitude_abs_sum": self.shaper.abs_sum,
+            "amplitude_abs_sum_limit": abs_sum_limit(self.fmt, self.shaper.stride),
+            "row_switch_transient_max": switch_transient(self.shaper),
+        }
+        if self.notch is not None:
+            t = self.notch.table
+            out["notch"] = {
+                "coefficient_order": "{b0, b1, b2, a1, a2} per stage, feedback added (a1, a2 = -scipy); "
+                                     + ("stored Q15 as {b0, 0, b1, b2, a1, a2}" if t.fmt == "q15"
+                                        else "stored Q31 as {b0, b1, b2, a1, a2}"),
+                "stages": t.n_stages,
+                "coefficients": [[int(c) for c in row] for row in t.coeffs],
+                "sos": [[float(c) for c in row] for row in t.sos()],
+                **self.notch.as_dict(),
+            }
+        out["sizes"] = self.sizes()
+        out["files"] = sorted(files)
+        out["cautions"] = list(CAUTIONS)
+        return out
+
+
+def _check_prefix(prefix: str) -> str:
+    ok = (isinstance(prefix, str) and 1 <= len(prefix) <= 24 and prefix.isascii()
+          and (prefix[0].isalpha() or prefix[0] == "_") and all(c.isalnum() or c == "_" for c in prefix))
+    if not ok or prefix.lower().startswith("shk_"):
+        raise ConfigError(f"prefix {prefix!r} is not allowed; allowed: {SCHEMA['firmware']['prefix'].allowed()}, "
+                          "not starting with 'shk_' (the runtime's own names)")
+    return prefix
+
+
+def notch_requested(project) -> bool:
+    """``[firmware] notch`` if set, else whether the project file has a ``[notch]`` section (even empty)."""
+    flag = project.firmware.get("notch")
+    if flag is not None:
+        return bool(flag)
+    return "notch" in project.given_sections
+
+
+def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = None, schedule=None,
+                     notch_sos=None, include_notch: bool | None = None) -> EmitPlan:
+    """Design and quantize everything the folder will hold.
+
+    Parameters
+    ----------
+    project : stillhook.project.Project
+    fmt : {'q15', 'q31'}, optional
+        Force the format (never escalated); default ``[firmware] format`` (escalated to Q31 when a
+        Q15 notch fails and ``[firmware] escalate_to_q31``).
+    prefix : str, optional
+        C prefix of the tables; default ``[firmware] prefix``.
+    schedule : Schedule-like, optional
+        ``rope_lengths_m`` ascending, ``shapers`` on the drive-cycle grid, ``cycle_s``, ``tolerance``
+        (and optionally ``lookup_rule``); default ``stillhook.shaping.envelope_design.schedule_for_project(project)``.
+    notch_sos : array_like (n, 6), optional
+        Notch cascade to emit; default ``stillhook.notch.design.notch_for_project(project).sos`` when a
+        notch is requested.
+    include_notch : bool, optional
+        Override :func:`notch_requested`.
+
+    Raises
+    ------
+    EmitError
+        Off-grid shaper, rows closer than one input count, notch shift past tolerance, RAM budget.
+    """
+    fw = project.firmware
+    forced = fmt is not None
+    fmt_requested = fmt if forced else fw["format"]
+    if fmt_requested not in FRACTION_BITS:
+        raise ConfigError(f"format {fmt_requested!r} is not allowed; allowed: 'q15', 'q31'")
+    prefix = _check_prefix(prefix if prefix is not None else fw["prefix"])
+    cycle_s = float(project.drive["cycle_s"])
+    if schedule is None:
+        schedule = schedule_for_project(project)
+    if not math.isclose(float(schedule.cycle_s), cycle_s, rel_tol=1e-9):
+        raise EmitError(f"schedule is for a {schedule.cycle_s:g} s cycle but [drive] cycle_s = {cycle_s:g} s")
+
+    fmt_out, reason, check = fmt_requested, None, None
+    want_notch = notch_requested(project) if include_notch is None else include_notch
+    if want_notch or notch_sos is not None:
+        if notch_sos is None:
+            notch_sos = notch_for_project(project).sos
+        check, reason = choose_notch_format(notch_sos, fmt_requested, cycle_s, fw["max_notch_shift_pct"] / 100.0,
+                                            escalate=bool(fw["escalate_to_q31"]) and not forced)
+        fmt_out = check.table.fmt
+
+    rows_m = np.asarray(schedule.rope_lengths_m, dtype=float)
+    if rows_m.ndim != 1 or rows_m.size != len(schedule.shapers) or rows_m.size == 0:
+        raise EmitError("schedule needs one rope length per shaper (at least one row)")
+    if np.any(np.diff(rows_m) <= 0):
+        raise EmitError("schedule rope lengths must be strictly ascending")
+    rows, pairs = [], []
+    for L, sh in zip(rows_m, schedule.shapers, strict=True):
+        if not sh.on_grid(cycle_s):
+            raise EmitError(f"the shaper for {L:g} m rope is not on the {cycle_s:g} s drive-cycle grid")
+        a, d = quantize_shaper(sh, cycle_s, fmt_out)
+        pairs.append((a, d))
+        rows.append(ShaperRow(float(L), tuple(int(v) for v in a), tuple(int(v) for v in d),
+                              getattr(sh, "name", "")))
+    table = ShaperTable.from_rows(pairs, fmt_out)
+
+    env = project.envelope
+    lsb = float(fw["rope_length_lsb_m"])
+    lo_m, hi_m = env.rope_length_range_m
+    if hi_m / lsb >= 2**32:
+        raise EmitError(f"rope length {hi_m:g} m does not fit a uint32 count of {lsb:g} m; "
+                        "allowed: a larger [firmware] rope_length_lsb_m")
+    rule = _schedule_rule(schedule)
+    th = lookup_thresholds(rows_m, rule, lsb)
+    sched = ScheduleTable(th, int(math.floor(lo_m / lsb + 0.5)), int(math.floor(hi_m / lsb + 0.5)), lsb)
+    if th.size and (np.any(np.diff(th) <= 0) or th[0] <= sched.length_min or th[-1] > sched.length_max):
+        raise EmitError(f"schedule rows are closer than one input count ({lsb:g} m) or outside the rope "
+                        f"range [{lo_m:g}, {hi_m:g}] m; allowed: a smaller [firmware] rope_length_lsb_m "
+                        "or fewer [design] max_schedule_rows")
+
+    plan = EmitPlan(prefix, fmt_out, fmt_requested, reason, cycle_s, project.digest, project.name,
+                    env.describe(), float(schedule.tolerance), rule, tuple(rows), table, sched, check,
+                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "")
+    sizes = plan.sizes()
+    if sizes["ram_bytes"] > plan.ram_budget_bytes:
+        longest = max(rows, key=lambda r: r.delays_cycles[-1])
+        raise EmitError(
+            f"the design needs {sizes['ram_bytes']} bytes of RAM (accumulator ring {table.ring_len} slots x "
+            f"{SLOT_BYTES[fmt_out]} bytes = {sizes['ring_bytes']} for the longest shaper, "
+            f"{longest.delays_cycles[-1] * cycle_s:g} s at {longest.rope_length_m:g} m rope, + "
+            f"{sizes['notch_state_bytes']} notch state) but [firmware] ram_budget_bytes = "
+            f"{plan.ram_budget_bytes}; allowed: a budget of at least {sizes['ram_bytes']} bytes")
+    return plan
+
+
+def render_files(plan: EmitPlan) -> dict[str, str]:
+    """``{file name: text}`` of the whole folder, sorted by name, manifest.json included."""
+    p = plan.prefix
+    files = dict(runtime_sources())
+    files[f"{p}_tables.h"] = render_tables_h(plan)
+    files[f"{p}_tables.c"] = render_tables_c(plan)
+    files[f"{p}_selftest.c"] = render_selftest(plan)
+    files[f"{p}_README.md"] = render_readme(plan)
+    names = sorted([*files, "manifest.json"])
+    files["manifest.json"] = to_json(plan.manifest(names))
+    return {k: files[k] for k in sorted(files)}
+
+
+def emit_files(project, **options) -> dict[str, str]:
+    """Pure: project -> ``{file name: text}`` (options as :func:`plan_for_project`)."""
+    return render_files(plan_for_project(project, **options))
+
+
+def write_emit(project, out_dir, **options) -> tuple[EmitPlan, list[Path]]:
+    """Emit into ``out_dir``: every file is written to a temporary folder first, then moved.
+
+    Returns
+    -------
+    (plan, written paths)
+    """
+    plan = plan_for_project(project, **options)
+    files = render_files(plan)
+    return plan, write_files(out_dir, files)

@@ -1,0 +1,20 @@
+"""The rig model: the two-mode linear pendulum, its envelope of rope lengths and payloads, the python-control view.
+
+Every name below is loaded from its module on first use (see :mod:`stillhook.lazy`).
+"""
+
+from stillhook.lazy import lazy_exports
+
+_EXPORTS = {
+    "Envelope": "stillhook.model.envelope",
+    "Mode": "stillhook.model.rig",
+    "Rig": "stillhook.model.rig",
+    "mode_frequencies_rad_s": "stillhook.model.rig",
+    "STANDARD_GRAVITY_M_S2": "stillhook.model.rig",
+    "DEFAULT_DAMPING_RATIO": "stillhook.model.rig",
+    "OUTPUT_NAMES": "stillhook.model.statespace",
+    "rig_state_space": "stillhook.model.statespace",
+}
+
+__all__ = sorted(_EXPORTS)
+__getattr__, __dir__ = lazy_exports(__name__, _EXPORTS)

@@ -1,0 +1,357 @@
+"""Notch filters at the sway modes, discretized for the drive cycle.
+
+Each sway mode gets one continuous notch
+
+    H(s) = (s^2 + 2 zeta_z w s + w^2) / (s^2 + 2 zeta_p w s + w^2),      w = 2 pi f0,
+
+with DC gain 1, |H| <= 1 everywhere (zeta_z < zeta_p), and |H(j w)| = zeta_z / zeta_p at the centre:
+the depth is ``depth_db = 20 log10(zeta_p / zeta_z)`` (infinite for zeta_z = 0, the default: a true
+null). The width is ``width_hz = 2 zeta_p f0``, which is the -3 dB width of the infinitely deep notch
+for any zeta_p. The sections of all modes are cascaded.
+
+Width rule (when ``width_hz`` is not given): cover the mode's band at the tolerance. For an undamped
+mode the residual sway left by a filtered command, as a fraction of the unfiltered one, is exactly
+|H| at the mode's frequency, so the notch is made just wide enough that |H| <= tolerance at both
+band edges. With r = f/f0 and u = ((1 - r^2) / (2 r))^2,
+
+    |H|^2 = (u + zeta_z^2) / (u + zeta_p^2)     (increasing in u, so the band edges are the worst),
+
+and |H(r_e)| = tol with zeta_z = d zeta_p (d = 10^(-depth/20)) gives
+
+    zeta_p = sqrt(u_e (1 - tol^2) / (tol^2 - d^2)),     feasible only when d < tol.
+
+The edges are taken in the prewarped (Tustin) frequency scale, r = tan(pi f T) / tan(pi f0 T), so the
+digital filter meets the tolerance at the edges exactly. A band is never taken narrower than +-10 %
+around the notch (r_e >= 1.1, room for model error; our choice), which is also the default band when
+only frequencies are given. ``notch_for_project`` centres each notch in its band (geometric mean in
+the prewarped scale, where |H| is symmetric). Wide bands make wide notches: beyond
+``max_pole_damping`` (default 20, an over-damped pole pair whose slow pole has a time constant of
+about 2 zeta_p / w, several sway periods) the width is capped and a warning gives the band's worst
+residual. An infinite depth always needs the least width, hence the default.
+
+Discretization: Tustin with prewarping at each notch's own frequency,
+s = K (z - 1)/(z + 1), K = w / tan(w T / 2), so the null sits exactly at f0. Coefficients of a section,
+D = K^2 + 2 zeta_p w K + w^2:
+
+    b = [K^2 + 2 zeta_z w K + w^2,  2 (w^2 - K^2),  K^2 - 2 zeta_z w K + w^2] / D
+    a = [1,                          2 (w^2 - K^2) / D,  (K^2 - 2 zeta_p w K + w^2) / D]
+
+so b1 = a1 and b0 + b2 = 1 + a2. The stored a2 is snapped to a multiple of 2^-52 and b0, b2 to
+multiples of 2^-53 (changes below 2.3e-16, all exact doubles) so both identities hold exactly and
+the DC gain (b0 + b1 + b2)/(1 + a1 + a2) is exactly 1 for the stored values: the filtered speed
+command travels the same distance.
+
+Notes
+-----
+Notch prototype and Tustin with prewarping: Oppenheim & Schafer, *Discrete-Time Signal
+Processing*, 3rd ed., Pearson, 2010, section 7.2; the digital notch of Orfanidis, *Introduction to
+Signal Processing*, Prentice Hall, 1996, section 11.3 (scipy.signal.iirnotch) is the special case
+zeta_z = 0. Residual vibration of a filtered command equals |H| at the mode: the residue of
+H(s) U(s) P(s) at the plant pole s_p is H(s_p) times the unfiltered one (derived).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from stillhook.errors import ConfigError, DesignError
+from stillhook.notch.cascade import TAIL_DECAY, NotchDesign, NotchSection, sos_response
+from stillhook.notch.rounding import FORMAT_BITS, NotchShift, auto_post_shift, quantized_notch_shift
+
+__all__ = ["NotchDesign", "NotchSection", "design_notches", "notch_for_project", "quantized_notch_shift",
+           "NotchShift", "band_centre_hz", "pole_damping_for_band", "notch_section", "TAIL_DECAY"]
+
+#: Narrowest band (ratio to the notch frequency) a derived width covers; also the default band.
+MIN_EDGE_RATIO = 1.1
+#: Default cap on the pole damping ratio zeta_p of a derived width.
+MAX_POLE_DAMPING = 20.0
+#: Default relative notch shift under fixed-point rounding that raises a warning (our choice).
+SHIFT_TOLERANCE = 0.01
+
+
+def _snap(x: float, quantum: float = 2.0**-53) -> float:
+    # multiples of 2^-53 below 2 in magnitude are exact doubles, so sums of them below 2 are exact
+    return math.floor(x / quantum + 0.5) * quantum
+
+
+def notch_section(freq_hz: float, pole_damping: float, zero_damping: float, cycle_s: float) -> np.ndarray:
+    """One prewarped-Tustin notch section [b0, b1, b2, 1, a1, a2] (see module docstring).
+
+    Parameters
+    ----------
+    freq_hz : float, 0 < freq_hz < 1 / (2 cycle_s)
+    pole_damping : float > 0
+        zeta_p.
+    zero_damping : float, 0 <= zero_damping < pole_damping
+        zeta_z.
+    cycle_s : float > 0
+    """
+    w = 2.0 * math.pi * freq_hz
+    # K = w / tan(w T / 2): s = K (z - 1)/(z + 1) maps s = j w onto z = e^(j w T) exactly
+    K = w / math.tan(0.5 * w * cycle_s)
+    D = K * K + 2.0 * pole_damping * w * K + w * w
+    a1 = 2.0 * (w * w - K * K) / D
+    # a2 = (K^2 - 2 zeta_p w K + w^2)/D, snapped so that S = 1 + a2 is exact
+    a2 = _snap(1.0 - 4.0 * pole_damping * w * K / D, 2.0**-52)
+    S = 1.0 + a2
+    # b0 = S/2 + e, b2 = S/2 - e with e = 2 zeta_z w K / D, so b0 + b2 = 1 + a2 exactly
+    e = _snap(2.0 * zero_damping * w * K / D)
+    return np.array([0.5 * S + e, a1, 0.5 * S - e, 1.0, a1, a2])
+
+
+def band_centre_hz(lo_hz: float, hi_hz: float, cycle_s: float) -> float:
+    """Centre of a band in the prewarped scale: tan(pi f0 T) = sqrt(tan(pi lo T) tan(pi hi T)).
+
+    The digital notch's |H| is symmetric about f0 in log tan(pi f T); for f << 1/T this is the
+    geometric mean sqrt(lo hi).
+    """
+    t = math.sqrt(math.tan(math.pi * lo_hz * cycle_s) * math.tan(math.pi * hi_hz * cycle_s))
+    return math.atan(t) / (math.pi * cycle_s)
+
+
+def pole_damping_for_band(freq_hz: float, band_hz: tuple[float, float], cycle_s: float, tolerance: float,
+                          depth_ratio: float = 0.0) -> float:
+    """zeta_p that makes |H| equal the tolerance at the worse band edge (module docstring).
+
+    Parameters
+    ----------
+    freq_hz : float
+        Notch frequency f0 (Hz).
+    band_hz : (lo, hi)
+        Band to cover (Hz), widened to at least f0 / 1.1 .. 1.1 f0 in the prewarped scale.
+    cycle_s : float > 0
+    tolerance : float in (0, 1)
+        Largest allowed |H| (fraction) over the band.
+    depth_ratio : float in [0, tolerance)
+        d = zeta_z / zeta_p = |H(f0)|.
+
+    Returns
+    -------
+    float
+        zeta_p = sqrt(u_e (1 - tol^2) / (tol^2 - d^2)), sqrt(u_e) = (r_e - 1/r_e) / 2.
+    """
+    if not depth_ratio < tolerance:
+        raise DesignError(f"a notch depth of {-20 * math.log10(depth_ratio):.3g} dB leaves "
+                          f"{100 * depth_ratio:.3g} % at the notch centre, above the {100 * tolerance:.3g} % "
+                          f"tolerance; allowed: depth_db > {-20 * math.log10(tolerance):.3g} or no depth (a true null)")
+    tan0 = math.tan(math.pi * freq_hz * cycle_s)
+    lo, hi = band_hz
+    r_e = max(math.tan(math.pi * hi * cycle_s) / tan0, tan0 / math.tan(math.pi * lo * cycle_s), MIN_EDGE_RATIO)
+    sqrt_u = 0.5 * (r_e - 1.0 / r_e)
+    return sqrt_u * math.sqrt((1.0 - tolerance**2) / (tolerance**2 - depth_ratio**2))
+
+
+def _number(name: str, value, *, hi: float = math.inf, allowed: str = "a finite number > 0") -> float:
+    if isinstance(value, bool):
+        raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}")
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}") from None
+    if not math.isfinite(v) or v <= 0.0 or v >= hi:
+        raise ConfigError(f"{name} = {value!r} is out of range; allowed: {allowed}")
+    return v
+
+
+def _per_notch(name: str, value, n: int, allowed: str) -> list:
+    """None, one number for every notch, or one per notch."""
+    if value is None:
+        return [None] * n
+    if np.ndim(value) == 0:
+        return [_number(name, value, allowed=allowed)] * n
+    values = list(value)
+    if len(values) != n:
+        raise ConfigError(f"{name} has {len(values)} values for {n} notches; allowed: one number or one per notch")
+    return [None if v is None else _number(name, v, allowed=allowed) for v in values]
+
+
+def _warped_band(f0: float, band, T: float) -> tuple[float, float]:
+    """The band to cover: the given band joined with +-10 % around f0 in the prewarped scale."""
+    t0 = math.tan(math.pi * f0 * T)
+    lo = math.atan(t0 / MIN_EDGE_RATIO) / (math.pi * T)
+    hi = math.atan(t0 * MIN_EDGE_RATIO) / (math.pi * T)
+    if band is None:
+        return lo, hi
+    return min(lo, band[0]), max(hi, band[1])
+
+
+def _band_grid(band: tuple[float, float], T: float, n: int = 201) -> np.ndarray:
+    t = np.geomspace(math.tan(math.pi * band[0] * T), math.tan(math.pi * band[1] * T), n)
+    return np.arctan(t) / (math.pi * T)
+
+
+def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, bands_hz=None,
+                   tolerance: float = 0.05, max_pole_damping: float = MAX_POLE_DAMPING,
+                   shift_tolerance: float = SHIFT_TOLERANCE, warn_formats=("q15", "q31")) -> NotchDesign:
+    """Design a cascade of prewarped-Tustin notches, one per frequency.
+
+    Parameters
+    ----------
+    freqs_hz : float or sequence of float, each 0 < f < 1 / (2 cycle_s)
+        Notch frequencies (Hz), usually the low then the high sway mode.
+    cycle_s : float > 0
+        Drive cycle = filter sample period (s).
+    width_hz : float > 0 or sequence (one per notch, None entries allowed), optional
+        2 zeta_p f0 (Hz). Default: derived from the band at the tolerance (module docstring).
+    depth_db : float > 0 or sequence, optional
+        20 log10(zeta_p / zeta_z). Default: infinite (zeta_z = 0, a true null).
+    bands_hz : sequence of (lo, hi), optional
+        Band each notch must cover (Hz), 0 < lo <= hi < 1 / (2 cycle_s). Default +-10 % (prewarped).
+    tolerance : float in (0, 1), default 0.05
+        Largest |H| (residual-sway fraction) allowed over each band.
+    max_pole_damping : float > 0, default 20
+        Cap on zeta_p of a derived width; past it the width is capped and a warning given.
+    shift_tolerance : float > 0, default 0.01
+        Relative notch shift under fixed-point rounding that raises a warning.
+    warn_formats : sequence of {'q15', 'q31'}
+        Formats whose rounding is checked for warnings (both are always reported).
+
+    Returns
+    -------
+    NotchDesign
+
+    Raises
+    ------
+    ConfigError
+        Malformed or out-of-range arguments.
+    DesignError
+        A frequency or band edge at or above half the drive rate; a depth too shallow for the
+        tolerance with a derived width; poles not strictly inside the unit circle.
+    """
+    T = _number("cycle_s", cycle_s)
+    nyquist = 0.5 / T
+    freqs = [freqs_hz] if np.ndim(freqs_hz) == 0 else list(freqs_hz)
+    if not 1 <= len(freqs) <= 16:
+        raise ConfigError(f"{len(freqs)} notch frequencies given; allowed: 1 to 16")
+    freqs = [_number("notch frequency_hz", f) for f in freqs]
+    for f in freqs:
+        if f >= nyquist:
+            raise DesignError(f"notch frequency {f:g} Hz is at or above half the drive rate ({nyquist:g} Hz "
+                              f"for cycle_s = {T:g} s); allowed: 0 < f < {nyquist:g} Hz")
+    n = len(freqs)
+    tol = _number("tolerance", tolerance, hi=1.0, allowed="a number in (0, 1)")
+    zeta_cap = _number("max_pole_damping", max_pole_damping)
+    shift_tol = _number("shift_tolerance", shift_tolerance)
+    widths = _per_notch("width_hz", width_hz, n, "a finite number > 0 (Hz), or one per notch")
+    depths = _per_notch("depth_db", depth_db, n, "a finite number > 0 (dB), or one per notch")
+    for fmt in warn_formats:
+        if fmt not in FORMAT_BITS:
+            raise ConfigError(f"warn_formats entry {fmt!r} is not allowed; allowed: 'q15', 'q31'")
+    if bands_hz is None:
+        bands = [None] * n
+    else:
+        try:
+            bands = [tuple(b) for b in bands_hz]
+        except TypeError:
+            bands = []
+        if len(bands) != n or any(len(b) != 2 for b in bands):
+            raise ConfigError(f"bands_hz = {bands_hz!r} is not allowed; allowed: one (lo, hi) pair per notch ({n})")
+        bands = [(_number("band lower edge (Hz)", lo), _number("band upper edge (Hz)", hi)) for lo, hi in bands]
+        for lo, hi in bands:
+            if lo > hi or hi >= nyquist:
+                raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi < {nyquist:g} Hz "
+                                  "(half the drive rate)")
+
+    rows, params, notes = [], [], []
+    for i, (f0, width, depth, band) in enumerate(zip(freqs, widths, depths, bands, strict=True)):
+        d = 0.0 if depth is None else 10.0 ** (-depth / 20.0)
+        eff_band = _warped_band(f0, band, T)
+        if width is not None:
+            zeta_p = width / (2.0 * f0)
+        else:
+            zeta_p = pole_damping_for_band(f0, eff_band, T, tol, d)
+            if zeta_p > zeta_cap:
+                notes.append((i, f"its derived pole damping {zeta_p:.3g} was capped at {zeta_cap:g}"))
+                zeta_p = zeta_cap
+        zeta_z = d * zeta_p
+        row = notch_section(f0, zeta_p, zeta_z, T)
+        radius = float(np.max(np.abs(np.roots(row[3:]))))
+        if not radius < 1.0:
+            raise DesignError(f"notch {i + 1} at {f0:g} Hz has a pole at radius {radius:.17g} at cycle_s = {T:g} s; "
+                              "allowed: poles strictly inside the unit circle (use a narrower width or a "
+                              "slower filter rate)")
+        rows.append(row)
+        params.append((f0, zeta_p, zeta_z, depth, eff_band))
+    sos = np.array(rows)
+
+    sections, warnings = [], []
+    capped = dict(notes)
+    for i, (f0, zeta_p, zeta_z, depth, eff_band) in enumerate(params):
+        grid = _band_grid(eff_band, T)
+        worst = float(np.max(np.abs(_response(sos, grid, T))))
+        sections.append(NotchSection(f0, zeta_p, zeta_z, 2.0 * zeta_p * f0,
+                                     math.inf if depth is None else depth, eff_band, worst))
+        if worst > tol * (1.0 + 1e-9):
+            why = f" ({capped[i]})" if i in capped else ""
+            warnings.append(f"notch {i + 1} at {f0:.4g} Hz leaves up to {100 * worst:.3g} % residual sway over "
+                            f"its band [{eff_band[0]:.4g}, {eff_band[1]:.4g}] Hz, above the "
+                            f"{100 * tol:.3g} % tolerance{why}")
+
+    quantization, post_shift = {}, {}
+    for fmt in FORMAT_BITS:
+        post_shift[fmt] = auto_post_shift(sos, fmt)
+        quantization[fmt] = tuple(quantized_notch_shift(sos, fmt, T, post_shift=post_shift[fmt]))
+        if fmt in warn_formats:
+            warnings.extend(_quantization_warnings(fmt, quantization[fmt], shift_tol))
+    return NotchDesign(sos, T, tuple(sections), tol, quantization, post_shift, tuple(warnings))
+
+
+def _response(sos: np.ndarray, freqs_hz: np.ndarray, T: float) -> np.ndarray:
+    return sos_response(sos, np.exp(2j * math.pi * freqs_hz * T))
+
+
+def _quantization_warnings(fmt: str, shifts, shift_tol: float) -> list[str]:
+    out = []
+    for q in shifts:
+        label = f"{fmt}: notch {q.section + 1} ({q.frequency_hz:.4g} Hz)"
+        if q.lost:
+            out.append(f"{label} is lost when the coefficients are rounded (its zeros become real); "
+                       "use q31 or run the filter at a slower rate")
+        elif abs(q.relative_shift) > shift_tol:
+            out.append(f"{label} moves to {q.quantized_frequency_hz:.4g} Hz ({100 * q.relative_shift:+.3g} %) "
+                       f"when the coefficients are rounded, beyond the {100 * shift_tol:.3g} % limit")
+        if not q.pole_radius < 1.0:
+            out.append(f"{label}: rounded poles reach radius {q.pole_radius:.6g}, the filter would not decay")
+        if not abs(q.dc_gain - 1.0) <= shift_tol:
+            gain = f"{q.dc_gain:.4g}" if math.isfinite(q.dc_gain) else "infinite"
+            out.append(f"{label}: rounded DC gain is {gain}, not 1, unless the generator restores "
+                       "b0 + b1 + b2 = 1 + a1 + a2 (a speed filter's DC gain scales the travelled distance)")
+    return out
+
+
+def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) -> NotchDesign:
+    """Notches for a project: one per sway mode, each centred in and covering the mode's band.
+
+    Parameters
+    ----------
+    project : stillhook.project.Project
+        Uses the envelope's mode bands, ``[drive] cycle_s``, ``[design] tolerance_pct``,
+        ``[notch] width_hz`` / ``depth_db``, ``[firmware] format`` (the format checked for
+        warnings; both are reported) and ``[firmware] max_notch_shift_pct`` (the shift that warns).
+    width_hz, depth_db : float or sequence, optional
+        Override the project's ``[notch]`` values.
+    tolerance : float in (0, 1), optional
+        Overrides ``[design] tolerance_pct`` / 100.
+
+    Returns
+    -------
+    NotchDesign
+        Low mode first. Centre: :func:`band_centre_hz`; width: covers the band at the tolerance
+        unless ``width_hz`` is set (module docstring).
+    """
+    T = project.drive["cycle_s"]
+    bands = project.envelope.mode_bands_hz()
+    nyquist = 0.5 / T
+    for i, (_lo, hi) in enumerate(bands):
+        if hi >= nyquist:
+            raise DesignError(f"sway mode {i + 1} reaches {hi:g} Hz, at or above half the drive rate "
+                              f"({nyquist:g} Hz); allowed: a drive cycle_s below {0.5 / hi:g} s")
+    freqs = [band_centre_hz(lo, hi, T) for lo, hi in bands]
+    width = project.notch["width_hz"] if width_hz is None else width_hz
+    depth = project.notch["depth_db"] if depth_db is None else depth_db
+    return design_notches(freqs, T, width_hz=width, depth_db=depth, bands_hz=bands,
+                          tolerance=project.design["tolerance_pct"] / 100.0 if tolerance is None else tolerance,
+                          shift_tolerance=project.firmware.get("max_notch_shift_pct", 100 * SHIFT_TOLERANCE) / 100.0,
+                          warn_formats=(project.firmware["format"],))

@@ -1,0 +1,157 @@
+"""The whole job on the built-in demo project: modes, design, comparison, sweep, firmware, self-test, report.
+
+:func:`run_demo` builds the study (:func:`stillhook.report.study.build_study`), compiles and runs the emitted
+host self-test with the system C compiler when there is one, and writes one folder at once::
+
+    DIR/report.html, DIR/report.json, DIR/figures/*.png|svg
+    DIR/firmware/   the emitted C tables, runtime, self-test source and manifest.json
+"""
+
+from __future__ import annotations
+
+import os
+import shlex
+import shutil
+import subprocess
+import tempfile
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from stillhook.errors import EmitError
+from stillhook.outputs import check_out_dir, write_files
+from stillhook.project import load_demo_project
+from stillhook.report.folder import report_files
+from stillhook.report.study import REPORT_GRID, build_study
+
+__all__ = ["COMPILERS", "DemoResult", "SELFTEST_TIMEOUT_S", "find_compiler", "run_demo", "run_selftest"]
+
+#: Compilers tried in order when $CC is not set.
+COMPILERS = ("cc", "gcc", "clang")
+#: Seconds the self-test may take to build and to run.
+SELFTEST_TIMEOUT_S = 120
+
+
+def find_compiler() -> list[str] | None:
+    """The C compiler command: ``$CC`` if set (split like a shell would), else the first of COMPILERS on PATH."""
+    cc = os.environ.get("CC", "").strip()
+    if cc:
+        argv = shlex.split(cc)
+        return argv if shutil.which(argv[0]) else None
+    for name in COMPILERS:
+        path = shutil.which(name)
+        if path:
+            return [name]
+    return None
+
+
+def run_selftest(files: dict, prefix: str, *, compiler: list[str] | None = None) -> dict:
+    """Build the emitted folder's host self-test in a temporary folder and run it.
+
+    Parameters
+    ----------
+    files : dict
+        The emitted folder as ``{name: text}`` (:func:`stillhook.firmware.plan.render_files`).
+    prefix : str
+        The tables' C prefix.
+    compiler : list of str, optional
+        Default :func:`find_compiler`.
+
+    Returns
+    -------
+    dict
+        ``ran`` (bool), ``passed`` (bool or None), ``compiler``, ``command``, ``exit_status``,
+        ``output`` (last lines), ``summary`` (one sentence).
+    """
+    cc = compiler if compiler is not None else find_compiler()
+    if cc is None:
+        return {"ran": False, "passed": None, "compiler": None, "command": None, "exit_status": None,
+                "output": "", "summary": "skipped: no C compiler found ($CC, " + ", ".join(COMPILERS) + ")"}
+    sources = [f"{prefix}_selftest.c", f"{prefix}_tables.c"] + sorted(n for n in files if n.startswith("shk_")
+                                                                       and n.endswith(".c"))
+    command = [*cc, "-std=c99", "-O2", "-o", f"{prefix}_selftest", *sources]
+    with tempfile.TemporaryDirectory(prefix="stillhook-selftest-") as tmp:
+        for name, text in files.items():
+            Path(tmp, name).write_text(text, encoding="utf-8")
+        try:
+            build = subprocess.run(command, cwd=tmp, capture_output=True, text=True, timeout=SELFTEST_TIMEOUT_S)
+        except (OSError, subprocess.TimeoutExpired) as exc:
+            return _failed(cc, command, None, str(exc), "the compiler could not be run")
+        if build.returncode != 0:
+            return _failed(cc, command, build.returncode, build.stderr, "the self-test did not compile")
+        try:
+            run = subprocess.run([str(Path(tmp, f"{prefix}_selftest"))], cwd=tmp, capture_output=True, text=True,
+                                 timeout=SELFTEST_TIMEOUT_S)
+        except (OSError, subprocess.TimeoutExpired) as exc:
+            return _failed(cc, command, None, str(exc), "the self-test could not be run")
+    output = _tail(run.stdout + run.stderr)
+    passed = run.returncode == 0
+    summary = (f"passed: built with {cc[0]} and ran, bit-exact with the Python reference (exit status 0)" if passed
+               else f"FAILED: exit status {run.returncode}")
+    return {"ran": True, "passed": passed, "compiler": cc[0], "command": " ".join(command),
+            "exit_status": run.returncode, "output": output, "summary": summary}
+
+
+def _tail(text: str, lines: int = 8) -> str:
+    return "\n".join(text.strip().splitlines()[-lines:])
+
+
+def _failed(cc, command, status, text, what) -> dict:
+    return {"ran": True, "passed": False, "compiler": cc[0], "command": " ".join(command), "exit_status": status,
+            "output": _tail(text), "summary": f"FAILED: {what}"}
+
+
+@dataclass(frozen=True)
+class DemoResult:
+    """What the demo did: the study, the self-test, the files written and how long each stage took."""
+
+    study: object
+    selftest: dict
+    written: list
+    timings_s: dict
+
+
+def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = True, progress=None) -> DemoResult:
+    """Run the whole job on the demo project and write ``out_dir`` (all files at once).
+
+    Parameters
+    ----------
+    out_dir : path
+        Output folder (created).
+    grid : (int, int), optional
+        Sweep grid; default :data:`stillhook.report.study.REPORT_GRID`.
+    selftest : bool
+        Compile and run the emitted self-test when a C compiler exists.
+    progress : callable(str), optional
+        Told the name of each stage as it starts.
+
+    Raises
+    ------
+    EmitError
+        The firmware could not be emitted (the demo's design must always emit).
+    """
+    t_start = time.perf_counter()
+    check_out_dir(out_dir)
+    project = load_demo_project()
+    study = build_study(project, grid=grid or REPORT_GRID, progress=progress)
+    if study.firmware_files is None:
+        raise EmitError(f"the demo's firmware could not be emitted: {study.problems.get('firmware', 'unknown')}")
+    if progress is not None:
+        progress("self-test")
+    t0 = time.perf_counter()
+    if selftest:
+        result = run_selftest(study.firmware_files, study.emit_plan.prefix)
+    else:
+        result = {"ran": False, "passed": None, "compiler": None, "command": None, "exit_status": None,
+                  "output": "", "summary": "skipped (--no-selftest)"}
+    study.selftest = result
+    study.timings_s["self-test"] = time.perf_counter() - t0
+    if progress is not None:
+        progress("report")
+    t0 = time.perf_counter()
+    files = report_files(study)
+    files.update({f"firmware/{name}": text for name, text in study.firmware_files.items()})
+    study.timings_s["report"] = time.perf_counter() - t0
+    written = write_files(out_dir, dict(sorted(files.items())))
+    study.timings_s["total"] = time.perf_counter() - t_start
+    return DemoResult(study, result, written, dict(study.timings_s))

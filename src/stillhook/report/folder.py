@@ -1,0 +1,26 @@
+"""The report folder: ``report.html``, ``report.json`` and the figures, written all at once."""
+
+from __future__ import annotations
+
+from stillhook.outputs import check_out_dir, to_json, write_files
+from stillhook.report.figures import figure_files
+from stillhook.report.page import render_html
+from stillhook.report.study import Study, build_study, report_json
+
+__all__ = ["report_files", "write_report"]
+
+
+def report_files(study: Study) -> dict[str, str | bytes]:
+    """``{relative name: text or bytes}``: figures/* (PNG and SVG), report.json and report.html."""
+    figs = figure_files(study.figures)
+    files: dict[str, str | bytes] = {f"figures/{k}": v for k, v in figs.items()}
+    files["report.json"] = to_json(report_json(study))
+    files["report.html"] = render_html(study, {n: figs[f"{n}.png"] for n in sorted(study.figures)})
+    return files
+
+
+def write_report(project, out_dir, **options):
+    """Build the study and write the report folder (all files at once). Returns (study, written paths)."""
+    check_out_dir(out_dir)
+    study = build_study(project, **options)
+    return study, write_files(out_dir, report_files(study))
