@@ -82,9 +82,11 @@ def test_impossible_requests_exit_2_with_one_line(capsys, argv, fragment):
     assert err.count("\n") == 1 and err.startswith("stillhook: error:") and fragment in err
 
 
-def test_project_with_mode_above_half_drive_rate_is_refused(capsys, tmp_path):
+def test_project_with_implausible_rope_is_refused_with_the_reason(capsys, tmp_path):
+    # 1 mm of rope used to reach the half-drive-rate check; the plausibility bound now stops it first
     p = tmp_path / "fast.toml"
     p.write_text("[rig]\nhook_mass_kg = 100.0\nrigging_length_m = 0.0\nrope_length_m = [0.001, 0.01]\n"
                  "payload_mass_kg = 10.0\n[drive]\ncycle_s = 0.1\nmax_speed_m_s = 0.5\nmax_accel_m_s2 = 0.3\n")
     assert main(["shaper", str(p)]) == 2
-    assert "half the drive rate" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "[rig] rope_length_m = 0.001 is too small; allowed: at least 0.1 m" in err and err.count("\n") == 1

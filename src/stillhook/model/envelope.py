@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import check_quantity
 from stillhook.errors import RigError
 from stillhook.model.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig, mode_frequencies_rad_s
 
@@ -46,9 +47,8 @@ class Envelope:
 
     def __post_init__(self) -> None:
         for name in ("rope_length_range_m", "payload_mass_range_kg"):
-            lo, hi = (float(v) for v in getattr(self, name))
-            if not (math.isfinite(lo) and math.isfinite(hi)):
-                raise RigError(f"{name} = [{lo:g}, {hi:g}] is not finite; allowed: finite numbers, min <= max")
+            quantity = name.replace("_range", "")
+            lo, hi = (check_quantity(quantity, v, name=name, error=RigError) for v in getattr(self, name))
             if lo > hi:
                 raise RigError(f"{name} = [{lo:g}, {hi:g}] has min > max; allowed: min <= max")
             object.__setattr__(self, name, (lo, hi))

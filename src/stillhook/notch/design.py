@@ -56,6 +56,7 @@ import math
 
 import numpy as np
 
+from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import ConfigError, DesignError
 from stillhook.notch.cascade import TAIL_DECAY, NotchDesign, NotchSection, sos_response
 from stillhook.notch.rounding import FORMAT_BITS, NotchShift, auto_post_shift, quantized_notch_shift
@@ -143,28 +144,22 @@ def pole_damping_for_band(freq_hz: float, band_hz: tuple[float, float], cycle_s:
     return sqrt_u * math.sqrt((1.0 - tolerance**2) / (tolerance**2 - depth_ratio**2))
 
 
-def _number(name: str, value, *, hi: float = math.inf, allowed: str = "a finite number > 0") -> float:
-    if isinstance(value, bool):
-        raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}")
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}") from None
-    if not math.isfinite(v) or v <= 0.0 or v >= hi:
-        raise ConfigError(f"{name} = {value!r} is out of range; allowed: {allowed}")
-    return v
+def _positive(name: str, value, *, hi: float | None = None) -> float:
+    return finite_number(name, value, allowed="a finite number > 0" + (f" and < {hi:g}" if hi else ""),
+                         lo=0.0, lo_ok=False, hi=hi, hi_ok=False)
 
 
-def _per_notch(name: str, value, n: int, allowed: str) -> list:
-    """None, one number for every notch, or one per notch."""
+def _per_notch(quantity: str, value, n: int) -> list:
+    """None, one number for every notch, or one per notch (each checked against LIMITS[quantity])."""
     if value is None:
         return [None] * n
     if np.ndim(value) == 0:
-        return [_number(name, value, allowed=allowed)] * n
+        return [check_quantity(quantity, value)] * n
     values = list(value)
     if len(values) != n:
-        raise ConfigError(f"{name} has {len(values)} values for {n} notches; allowed: one number or one per notch")
-    return [None if v is None else _number(name, v, allowed=allowed) for v in values]
+        raise ConfigError(f"{quantity} has {len(values)} values for {n} notches; allowed: one number or one per "
+                          "notch")
+    return [None if v is None else check_quantity(quantity, v) for v in values]
 
 
 def _warped_band(f0: float, band, T: float) -> tuple[float, float]:
@@ -220,22 +215,22 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
         A frequency or band edge at or above half the drive rate; a depth too shallow for the
         tolerance with a derived width; poles not strictly inside the unit circle.
     """
-    T = _number("cycle_s", cycle_s)
+    T = check_quantity("cycle_s", cycle_s)
     nyquist = 0.5 / T
     freqs = [freqs_hz] if np.ndim(freqs_hz) == 0 else list(freqs_hz)
     if not 1 <= len(freqs) <= 16:
         raise ConfigError(f"{len(freqs)} notch frequencies given; allowed: 1 to 16")
-    freqs = [_number("notch frequency_hz", f) for f in freqs]
+    freqs = [check_quantity("frequency_hz", f, name="notch frequency_hz") for f in freqs]
     for f in freqs:
         if f >= nyquist:
             raise DesignError(f"notch frequency {f:g} Hz is at or above half the drive rate ({nyquist:g} Hz "
                               f"for cycle_s = {T:g} s); allowed: 0 < f < {nyquist:g} Hz")
     n = len(freqs)
-    tol = _number("tolerance", tolerance, hi=1.0, allowed="a number in (0, 1)")
-    zeta_cap = _number("max_pole_damping", max_pole_damping)
-    shift_tol = _number("shift_tolerance", shift_tolerance)
-    widths = _per_notch("width_hz", width_hz, n, "a finite number > 0 (Hz), or one per notch")
-    depths = _per_notch("depth_db", depth_db, n, "a finite number > 0 (dB), or one per notch")
+    tol = _positive("tolerance", tolerance, hi=1.0)
+    zeta_cap = _positive("max_pole_damping", max_pole_damping)
+    shift_tol = _positive("shift_tolerance", shift_tolerance)
+    widths = _per_notch("width_hz", width_hz, n)
+    depths = _per_notch("depth_db", depth_db, n)
     for fmt in warn_formats:
         if fmt not in FORMAT_BITS:
             raise ConfigError(f"warn_formats entry {fmt!r} is not allowed; allowed: 'q15', 'q31'")
@@ -248,7 +243,8 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
             bands = []
         if len(bands) != n or any(len(b) != 2 for b in bands):
             raise ConfigError(f"bands_hz = {bands_hz!r} is not allowed; allowed: one (lo, hi) pair per notch ({n})")
-        bands = [(_number("band lower edge (Hz)", lo), _number("band upper edge (Hz)", hi)) for lo, hi in bands]
+        bands = [(check_quantity("band_edge_hz", lo, name="band lower edge (Hz)"),
+                  check_quantity("band_edge_hz", hi, name="band upper edge (Hz)")) for lo, hi in bands]
         for lo, hi in bands:
             if lo > hi or hi >= nyquist:
                 raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi < {nyquist:g} Hz "

@@ -40,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from stillhook.checks import finite_number
+from stillhook.checks import check_quantity
 from stillhook.errors import ConfigError
 from stillhook.model.rig import Rig
 
@@ -202,8 +202,8 @@ def simulate(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=None, hoist_s
     -------
     SimResult
     """
-    Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
-    settle_s = finite_number("settle_s", settle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+    Ts = check_quantity("cycle_s", cycle_s)
+    settle_s = check_quantity("settle_s", settle_s)
     v_cmd = _as_samples("speed_m_s", speed_m_s)
     if rope_length_m is not None and hoist_speed_m_s is not None:
         raise ConfigError("give rope_length_m or hoist_speed_m_s, not both")

@@ -25,6 +25,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from stillhook.checks import MAX_SWEEP_RIGS, check_quantity, check_work
 from stillhook.errors import ConfigError
 from stillhook.notch.design import notch_for_project
 from stillhook.shaping.envelope_design import design_for_project
@@ -43,7 +44,7 @@ DEFAULT_GRID = (21, 21)
 #: Default travel distance of the sweep's move (m).
 DEFAULT_DISTANCE_M = 6.0
 #: Largest number of rigs one sweep accepts.
-MAX_RIGS = 200_000
+MAX_RIGS = MAX_SWEEP_RIGS
 
 
 # -- designs -------------------------------------------------------------------------------------
@@ -101,7 +102,7 @@ def project_designs(project, speed_m_s, *, keys=DESIGN_KEYS, design=None, notch=
 # -- rigs ----------------------------------------------------------------------------------------
 def grid_points(envelope, n_rope: int, n_payload: int) -> tuple[np.ndarray, np.ndarray]:
     """Paired rope lengths and payload masses of an n_rope x n_payload grid (rope-major order)."""
-    _check_count("grid size", n_rope * n_payload)
+    check_work("sweep rigs (grid size)", n_rope * n_payload, MAX_RIGS, hint="use a coarser --grid")
     Ls, ms = envelope.grid(n_rope, n_payload)
     L, m = np.meshgrid(Ls, ms, indexing="ij")
     return L.ravel(), m.ravel()
@@ -109,7 +110,7 @@ def grid_points(envelope, n_rope: int, n_payload: int) -> tuple[np.ndarray, np.n
 
 def random_points(envelope, n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
     """``n`` rigs drawn uniformly over the envelope's rectangle (numpy PCG64, fixed ``seed``)."""
-    _check_count("number of samples", n)
+    check_work("sweep rigs (samples)", n, MAX_RIGS, hint="use fewer --samples")
     rng = np.random.default_rng(seed)
     (L0, L1), (m0, m1) = envelope.rope_length_range_m, envelope.payload_mass_range_kg
     return rng.uniform(L0, L1, n) if L1 > L0 else np.full(n, L0), rng.uniform(m0, m1, n) if m1 > m0 else np.full(n, m0)
@@ -123,11 +124,6 @@ def corner_points(envelope) -> list[tuple[float, float]]:
             if (L, m) not in out:
                 out.append((L, m))
     return out
-
-
-def _check_count(what: str, n: int) -> None:
-    if not 1 <= n <= MAX_RIGS:
-        raise ConfigError(f"{what} = {n} is out of range; allowed: 1 to {MAX_RIGS} rigs")
 
 
 # -- the sweep -----------------------------------------------------------------------------------
@@ -210,18 +206,18 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     drive = project.drive
     T = drive["cycle_s"]
     d_m = DEFAULT_DISTANCE_M if distance_m is None else distance_m
-    if not (isinstance(d_m, int | float) and math.isfinite(d_m) and 0 < d_m <= 1000):
-        raise ConfigError(f"distance = {d_m!r} m is out of range; allowed: 0 < distance <= 1000 m")
+    d_m = check_quantity("distance_m", d_m)
     speed = trapezoid(d_m, drive["max_speed_m_s"], drive["max_accel_m_s2"], T)
     if samples is not None:
-        L, m = random_points(env, int(samples), seed)
+        L, m = random_points(env, check_quantity("random_rigs", samples, name="samples"), seed)
         shape = None
     else:
         if grid is None or len(grid) != 2:
             raise ConfigError(f"grid = {grid!r}; allowed: (n_rope, n_payload), each >= 1")
-        n_rope, n_payload = (int(v) for v in grid)
-        if n_rope < 1 or n_payload < 1:
-            raise ConfigError(f"grid = {n_rope} x {n_payload}; allowed: at least 1 x 1")
+        n_rope, n_payload = (check_quantity("grid_points", v, name="grid") for v in grid)
+        # a range that is one point gets one grid line, not n copies of the same rig
+        n_rope = 1 if env.rope_length_range_m[0] == env.rope_length_range_m[1] else n_rope
+        n_payload = 1 if env.payload_mass_range_kg[0] == env.payload_mass_range_kg[1] else n_payload
         L, m = grid_points(env, n_rope, n_payload)
         shape = (n_rope, n_payload)
     designs, notes = project_designs(project, speed, keys=keys, design=design, notch=notch)
