@@ -99,12 +99,11 @@ _G = "stay far enough from the numbers at which the model or the computation bre
 #: The allowed range of every quantity a user can type, keyed by its project key (also the CLI option's name).
 LIMITS: dict[str, Limit] = {
     # rig
-    "hook_mass_kg": Limit("kg", 1.0, 5e5, reason="a hook block weighs at least 1 kg (lighter: the two-mode "
-                          "model is ill-conditioned) and at most 500 t"),
+    "hook_mass_kg": Limit("kg", 1.0, 5e5, reason="a hook block weighs at least 1 kg, lighter makes the "
+                          "two-mode model ill-conditioned; at most 500 t"),
     "payload_mass_kg": Limit("kg", 0.0, 2e7, reason="0 means no payload; the largest cranes lift about 20000 t"),
     "rope_length_m": Limit("m", 0.1, 1000.0, reason="rope from trolley to hook between 0.1 m and 1000 m"),
-    "rigging_length_m": Limit("m", 0.0, 100.0, reason="hook to payload centre of mass, 0 (payload at the hook) "
-                              "to 100 m"),
+    "rigging_length_m": Limit("m", 0.0, 100.0, reason="hook to payload centre of mass, 0 = payload at the hook"),
     "damping_ratio": Limit("", 0.0, 0.7, reason="rope sway damps at a few percent at most; above 0.7 there is "
                            "no overshoot left to shape"),
     "gravity_m_s2": Limit("m/s2", 1.0, 30.0, reason="9.78 to 9.83 on Earth; other values only for what-if studies"),

@@ -262,7 +262,7 @@ def load_project(path: str | Path) -> Project:
 
 def _parse(raw: bytes, label: str, name: str) -> Project:
     try:
-        data = tomllib.loads(raw.decode("utf-8"))
+        data = tomllib.loads(raw.decode("utf-8-sig"))  # a byte-order mark some editors write is skipped
     except UnicodeDecodeError:
         raise InputFileError(f"project file {label!r} is not UTF-8 text") from None
     except tomllib.TOMLDecodeError as exc:

@@ -31,12 +31,12 @@ hoist_to_m = 5.5
 def test_compare_json_and_text(tmp_path, capsys):
     p = tmp_path / "rig.toml"
     p.write_text(PROJECT)
-    assert main(["compare", str(p), "--distance", "2", "--json"]) == 0
+    assert main(["compare", str(p), "--distance-m", "2", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["distance_m"] == 2.0 and data["hoist_during_move"] is True
     assert [r["method"] for r in data["rows"]] == ["unshaped", "zv", "zvd", "ei", "band", "two_mode", "notch"]
     assert data["cautions"]
-    assert main(["compare", str(p), "--distance", "2", "--no-hoist"]) == 0
+    assert main(["compare", str(p), "--distance-m", "2", "--no-hoist"]) == 0
     text = capsys.readouterr().out
     for word in ("unshaped", "ZVD", "notch", "added delay", "Cautions"):
         assert word in text
@@ -45,7 +45,7 @@ def test_compare_json_and_text(tmp_path, capsys):
 def test_compare_errors(tmp_path, capsys):
     p = tmp_path / "rig.toml"
     p.write_text(PROJECT)
-    assert main(["compare", str(p), "--distance", "-1"]) == 2
+    assert main(["compare", str(p), "--distance-m", "-1"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("stillhook: error:") and err.count("\n") == 1 and "distance" in err
     assert main(["compare", str(tmp_path / "missing.toml")]) == 2

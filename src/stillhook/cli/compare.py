@@ -7,6 +7,8 @@ import argparse
 from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
+    add_quantity_option,
+    load_project_arg,
     format_table,
     print_bullets,
     print_cautions,
@@ -16,10 +18,15 @@ from stillhook.cli._common import (
 HELP = "compare shapers and the notch filter on the project's move (nonlinear simulation, one table)"
 
 
+EXAMPLES = """  stillhook compare demo
+  stillhook compare my_crane.toml --distance-m 12 --no-hoist --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--distance", type=float, metavar="M", default=None,
-                   help="travel distance (m); default: [move] distance_m of the project")
+    add_quantity_option(p, "--distance-m", "distance_m", "travel distance (m); default: [move] distance_m of the "
+                        "project")
     p.add_argument("--no-hoist", action="store_true",
                    help="keep the rope length fixed (ignore [move] hoist_to_m)")
     add_json_argument(p)
@@ -31,11 +38,10 @@ def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
 
 def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
-    from stillhook.project import load_project_or_demo
     from stillhook.study.compare import compare_project
 
-    project = load_project_or_demo(args.project)
-    result = compare_project(project, distance_m=args.distance, include_hoist=not args.no_hoist)
+    project = load_project_arg(args.project)
+    result = compare_project(project, distance_m=args.distance_m, include_hoist=not args.no_hoist)
     if args.json:
         print_json({**result.as_dict(), "cautions": list(CAUTIONS)})
         return 0

@@ -11,13 +11,20 @@ HELP = ("run the whole job on the built-in demo project: modes, design, comparis
 _DEFAULT_OUT = "stillhook-demo"
 
 
+EXAMPLES = """  stillhook demo
+  stillhook demo --out /tmp/demo --grid 11 11 --force --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--out", metavar="DIR", default=_DEFAULT_OUT,
-                   help=f"output folder (default ./{_DEFAULT_OUT}); report.html and firmware/ go here")
-    p.add_argument("--grid", type=int, nargs=2, metavar=("NL", "NM"), default=None,
-                   help="envelope sweep grid, rope lengths x payload masses (default 21 21)")
+    from stillhook.cli._common import add_json_argument, add_out_arguments, add_quantity_option
+
+    add_out_arguments(p, required=False, default=_DEFAULT_OUT, what="report.html and firmware/ go here")
+    add_quantity_option(p, "--grid", "grid_points", "envelope sweep grid, rope lengths x payload masses "
+                        "(default 21 21, at most 201 each)", nargs=2, metavar=("NL", "NM"))
     p.add_argument("--no-selftest", action="store_true",
                    help="do not compile and run the emitted C self-test")
+    add_json_argument(p)
 
 
 def _summary(result, out: str) -> list[str]:
@@ -66,6 +73,14 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.report.demo import run_demo
 
     result = run_demo(args.out, grid=tuple(args.grid) if args.grid else None, selftest=not args.no_selftest,
-                      progress=stage_printer(sys.stderr.isatty()))
-    print("\n".join(_summary(result, args.out)))
+                      progress=stage_printer(sys.stderr.isatty()), force=args.force)
+    if args.json:
+        from stillhook.cautions import CAUTIONS
+        from stillhook.cli._common import print_json
+
+        print_json({"out": str(args.out), "files": sorted(str(p.relative_to(args.out)) for p in result.written),
+                    "selftest": result.selftest, "problems": dict(sorted(result.study.problems.items())),
+                    "summary": _summary(result, args.out)[:-len(CAUTIONS) - 2], "cautions": list(CAUTIONS)})
+    else:
+        print("\n".join(_summary(result, args.out)))
     return 0 if result.selftest.get("passed") is not False else 1

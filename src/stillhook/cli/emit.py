@@ -4,29 +4,37 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, print_json
+from stillhook.cli._common import add_json_argument, add_out_arguments, add_project_argument, load_project_arg, print_json
 
 HELP = "generate fixed-point C (tables, portable runtime, host self-test, manifest) for the drive"
 
 
+EXAMPLES = """  stillhook emit demo --out sway_c
+  stillhook emit my_crane.toml --out drive/sway --format q31 --prefix trolley --force
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--out", required=True, metavar="DIR",
-                   help="output folder (created; files are written all at once or not at all)")
+    add_out_arguments(p, required=True, what="the C folder")
     p.add_argument("--format", choices=("q15", "q31"), default=None,
                    help="sample format; given here it is used as is (a notch that fails it is refused), "
                         "default [firmware] format (Q15 may move to Q31 for a notch)")
     p.add_argument("--prefix", metavar="NAME", default=None,
-                   help="C prefix of the tables and file names (default [firmware] prefix, 'sway')")
+                   help="C prefix of the tables and file names (default [firmware] prefix, 'sway'; a C identifier "
+                        "starting with a letter, not a keyword, not starting with 'shk')")
     add_json_argument(p)
 
 
 def run(args: argparse.Namespace) -> int:
     from stillhook.firmware.plan import write_emit
-    from stillhook.project import load_project_or_demo
 
-    project = load_project_or_demo(args.project)
-    plan, written = write_emit(project, args.out, fmt=args.format, prefix=args.prefix)
+    from stillhook.checks import check_identifier
+
+    if args.prefix is not None:
+        check_identifier("--prefix", args.prefix)
+    project = load_project_arg(args.project)
+    plan, written = write_emit(project, args.out, fmt=args.format, prefix=args.prefix, force=args.force)
     sizes = plan.sizes()
     if args.json:
         print_json({"out": str(args.out), "files": sorted(p.name for p in written), "format": plan.fmt,

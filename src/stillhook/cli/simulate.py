@@ -4,34 +4,50 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_out_arguments,
+    add_project_argument,
+    add_quantity_option,
+    format_table,
+    load_project_arg,
+    print_json,
+)
 
 HELP = "simulate the project's move (unshaped) on the nonlinear hook-and-payload model"
 
 
+EXAMPLES = """  stillhook simulate demo
+  stillhook simulate my_crane.toml --distance-m 12 --out sim12 --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--distance", type=float, metavar="M", default=None,
-                   help="travel distance (m); default: [move] distance_m of the project (6 m if unset)")
-    p.add_argument("--out", metavar="DIR", default=None, help="write sim.csv and sim.png into DIR")
+    add_quantity_option(p, "--distance-m", "distance_m", "travel distance (m); default: [move] distance_m of the "
+                        "project (6 m if unset)")
+    add_out_arguments(p, required=False, what="write sim.csv and sim.png into DIR")
     add_json_argument(p)
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook.project import load_project_or_demo
     from stillhook.sim.dynamics import simulate
     from stillhook.sim.profiles import project_move
     from stillhook.sim.recording import sim_csv, sim_plot_png
 
-    project = load_project_or_demo(args.project)
-    speed, hoist = project_move(project, args.distance)
+    if args.out is not None:
+        from stillhook.outputs import check_out_dir
+
+        check_out_dir(args.out, force=args.force)
+    project = load_project_arg(args.project)
+    speed, hoist = project_move(project, args.distance_m)
     rig = project.envelope.nominal_rig
     result = simulate(rig, speed, project.drive["cycle_s"], hoist_speed_m_s=hoist)
     metrics = result.metrics()
     if args.out is not None:
         from stillhook.outputs import write_files
 
-        write_files(args.out, {"sim.csv": sim_csv(result), "sim.png": sim_plot_png(result, rig)})
+        write_files(args.out, {"sim.csv": sim_csv(result), "sim.png": sim_plot_png(result, rig)}, force=args.force)
     if args.json:
         print_json({"rig": {"rope_length_m": rig.rope_length_m, "payload_mass_kg": rig.payload_mass_kg},
                     "metrics": metrics})

@@ -45,10 +45,10 @@ def check_request(method: str, freqs_hz, bands_hz, damping_ratio, tolerance_pct,
         check_below_half_rate(freqs + [hi for _, hi in bands], cycle)
     if method == "band":
         if freqs:
-            raise DesignError("method 'band' takes its bands from --band LO HI (repeat for a second mode), "
+            raise DesignError("method 'band' takes its bands from --band-hz LO HI (repeat for a second mode), "
                               "not --frequency-hz")
         if not bands:
-            raise DesignError("method 'band' needs --band LO HI (one per mode)")
+            raise DesignError("method 'band' needs --band-hz LO HI (one per mode)")
     elif not freqs:
         raise DesignError(f"method {method!r} needs --frequency-hz F (repeat for a two-mode shaper)")
     return freqs, bands, zeta, pct / 100.0, cycle
