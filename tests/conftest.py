@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import os
+
 import pytest
 
 from stillhook.project import load_demo_project
@@ -33,3 +35,18 @@ def minimal_project_file(tmp_path):
     p = tmp_path / "minimal.toml"
     p.write_text(MINIMAL_TOML)
     return p
+
+
+#: Set by .ci/run: a test that would skip because a tool is missing fails instead (CI installs every tool).
+REQUIRE_TOOLS = os.environ.get("STILLHOOK_REQUIRE_TOOLS") == "1"
+
+
+@pytest.hookimpl(hookwrapper=True)
+def pytest_runtest_makereport(item, call):
+    """With STILLHOOK_REQUIRE_TOOLS=1 a skip is a failure: a gate that matters never silently skips in CI."""
+    outcome = yield
+    report = outcome.get_result()
+    if REQUIRE_TOOLS and report.skipped and not hasattr(report, "wasxfail"):
+        reason = report.longrepr[2] if isinstance(report.longrepr, tuple) else str(report.longrepr)
+        report.outcome = "failed"
+        report.longrepr = f"skipped although STILLHOOK_REQUIRE_TOOLS=1 (CI must have the tool): {reason}"
