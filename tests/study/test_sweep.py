@@ -153,7 +153,8 @@ def test_cli_json_is_deterministic_and_quiet_on_stderr(capsys):
     assert main(argv) == 0
     assert capsys.readouterr().out == first.out
     data = json.loads(first.out)
-    assert len(data["points"]) == 6 and data["move"]["distance_m"] == 6.0
+    # the sweep's move is the project's [move]: the demo's 7.5 m trapezoid (issue 11: sweep ignored it)
+    assert len(data["points"]) == 6 and data["move"]["distance_m"] == 7.5 and data["move"]["profile"] == "trapezoid"
     assert set(data["points"][0]["residual_payload_sway_m"]) == {"unshaped", "shaper"}
     assert data["cautions"]
 
@@ -183,3 +184,25 @@ def test_progress_bar_draws_on_its_stream():
     bar(5, 10)
     bar(10, 10)
     assert "5/10 rigs" in buf.getvalue() and buf.getvalue().endswith("10/10 rigs\n")
+
+
+# -- issue 11: the sweep's move and single-point envelopes ----------------------------------------------
+def _one_point_project(profile: str):
+    import tomllib
+
+    from stillhook.project import project_from_dict
+    from tests.conftest import MINIMAL_TOML
+
+    data = tomllib.loads(MINIMAL_TOML)
+    data["rig"].update(rope_length_m=5.0, payload_mass_kg=300.0)
+    data["move"] = {"distance_m": 4.0, "profile": profile}
+    return project_from_dict(data)
+
+
+def test_single_point_envelope_is_one_rig_and_the_move_is_the_projects():
+    trap = sweep_project(_one_point_project("trapezoid"), grid=(21, 21), keys=("unshaped",), check=False)
+    assert trap.rope_length_m.size == 1 and trap.grid_shape == (1, 1)  # not 441 copies of one rig
+    scurve = sweep_project(_one_point_project("scurve"), grid=(21, 21), keys=("unshaped",), check=False)
+    assert scurve.move["profile"] == "scurve" and scurve.move["distance_m"] == 4.0
+    # the jerk limit's moving average lengthens the command (s_curve docstring)
+    assert scurve.move["command_end_s"] > trap.move["command_end_s"]

@@ -82,7 +82,7 @@ def run(args: argparse.Namespace) -> int:
     rigs = (f"{result.grid_shape[0]} x {result.grid_shape[1]} grid" if result.grid_shape
             else f"{result.rope_length_m.size} random rigs (seed {args.seed})")
     print(f"Sweep of {project.name}: {rigs} over rope {L0:g}-{L1:g} m x payload {m0:g}-{m1:g} kg; "
-          f"{mv['distance_m']:g} m trapezoid at {mv['max_speed_m_s']:g} m/s, {mv['max_accel_m_s2']:g} m/s2, "
+          f"{mv['distance_m']:g} m {mv['profile']} at {mv['max_speed_m_s']:g} m/s, {mv['max_accel_m_s2']:g} m/s2, "
           f"rope held; residual = peak |payload offset| over {mv['settle_window_s']:g} s after the command ends.")
     tol = result.tolerance
     rows = []

@@ -114,7 +114,7 @@ def section_sweep(study, png) -> str:
         return "".join(out)
     mv = sw.move
     out.append(f"<p>Every rig of a {sw.grid_shape[0]} &times; {sw.grid_shape[1]} grid of rope lengths and payload "
-               f"masses makes a {num(mv['distance_m'])} m rest-to-rest trapezoid at {num(mv['max_speed_m_s'])} m/s and "
+               f"masses makes a {num(mv['distance_m'])} m rest-to-rest {esc(mv['profile'])} at {num(mv['max_speed_m_s'])} m/s and "
                f"{num(mv['max_accel_m_s2'])} m/s&sup2; with the rope held; residual sway is the peak |payload offset| "
                f"over {num(mv['settle_window_s'])} s after the command ends. The schedule gives each rig the row the "
                "firmware picks for its rope length.</p>")

@@ -78,8 +78,8 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     grid : (int, int)
         Envelope sweep grid (rope lengths x payload masses).
     distance_m : float, optional
-        Sweep move distance (default :data:`stillhook.study.sweep.DEFAULT_DISTANCE_M`); the comparison and
-        the time responses use the project's own move.
+        Sweep move distance (default the project's ``[move] distance_m``); the sweep holds the rope length,
+        the comparison and the time responses use the project's own move with hoisting.
     check : bool
         Nonlinear spot checks of the sweep at the envelope corners.
     progress : callable(str), optional

@@ -1,7 +1,7 @@
 """Envelope sweep: residual payload sway of every design over the rope-length x payload-mass envelope.
 
-For one move (a rest-to-rest trapezoid at the drive's speed and acceleration limits, fixed rope
-length) every rig of a grid, or of random samples of the envelope, is run with each design's
+For one move (the project's [move]: distance and profile at the drive's speed and acceleration limits, fixed
+rope length) every rig of a grid, or of random samples of the envelope, is run with each design's
 command: unshaped, the project's one-for-the-envelope shaper, the length-scheduled shaper (each rig
 gets the row the firmware picks for its rope length) and the notch cascade. The residual sway is
 computed exactly on the linear model for all rigs at once (:mod:`stillhook.study.modal_sweep`); a few
@@ -30,7 +30,7 @@ from stillhook.errors import ConfigError
 from stillhook.notch.design import notch_for_project
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate
-from stillhook.sim.profiles import trapezoid
+from stillhook.sim.profiles import project_move
 from stillhook.study.modal_sweep import AccelRuns, ModalBatch, end_amplitudes, peak_after_end
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
 
@@ -41,7 +41,7 @@ __all__ = ["DESIGN_KEYS", "SpotCheck", "SweepDesign", "SweepResult", "project_de
 DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
 #: Default grid (rope lengths x payload masses).
 DEFAULT_GRID = (21, 21)
-#: Default travel distance of the sweep's move (m).
+#: Travel distance of the benchmarks' sweep move (m); sweep_project uses the project's [move] distance_m.
 DEFAULT_DISTANCE_M = 6.0
 #: Largest number of rigs one sweep accepts.
 MAX_RIGS = MAX_SWEEP_RIGS
@@ -110,7 +110,7 @@ def grid_points(envelope, n_rope: int, n_payload: int) -> tuple[np.ndarray, np.n
 
 def random_points(envelope, n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
     """``n`` rigs drawn uniformly over the envelope's rectangle (numpy PCG64, fixed ``seed``)."""
-    check_work("sweep rigs (samples)", n, MAX_RIGS, hint="use fewer --samples")
+    check_quantity("random_rigs", n, name="number of samples")
     rng = np.random.default_rng(seed)
     (L0, L1), (m0, m1) = envelope.rope_length_range_m, envelope.payload_mass_range_kg
     return rng.uniform(L0, L1, n) if L1 > L0 else np.full(n, L0), rng.uniform(m0, m1, n) if m1 > m0 else np.full(n, m0)
@@ -187,8 +187,9 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     samples : int >= 1, optional
         Random rigs drawn uniformly over the envelope instead (reproducible with ``seed``).
     seed : int
-    distance_m : float > 0, optional
-        Travel distance of the trapezoid move; default :data:`DEFAULT_DISTANCE_M` (6 m).
+    distance_m : float in (0, 1000], optional
+        Travel distance of the move; default the project's ``[move] distance_m``. The move is the project's
+        (``[move] profile`` at the drive's limits) with the rope length held: hoisting is in the comparison.
     keys : sequence of str
         Designs to sweep (subset of :data:`DESIGN_KEYS`).
     design, notch : optional
@@ -205,9 +206,8 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     env = project.envelope
     drive = project.drive
     T = drive["cycle_s"]
-    d_m = DEFAULT_DISTANCE_M if distance_m is None else distance_m
-    d_m = check_quantity("distance_m", d_m)
-    speed = trapezoid(d_m, drive["max_speed_m_s"], drive["max_accel_m_s2"], T)
+    d_m = project.move["distance_m"] if distance_m is None else check_quantity("distance_m", distance_m)
+    speed, _ = project_move(project, d_m)  # the project's move; the linear sweep holds the rope length
     if samples is not None:
         L, m = random_points(env, check_quantity("random_rigs", samples, name="samples"), seed)
         shape = None
@@ -227,7 +227,9 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     if check and any(d.key in UNCHECKED_KEYS for d in designs):
         notes.append("spot checks: the notch is not re-run on the nonlinear simulator (its ring-out makes "
                      "that slow); the linear model's error is second order in the sway amplitude")
-    move = {"profile": "trapezoid", "distance_m": float(d_m), "max_speed_m_s": drive["max_speed_m_s"],
+    if project.move["hoist_to_m"] is not None:
+        notes.append("the sweep holds the rope length; the project's hoisting during the move is in the comparison")
+    move = {"profile": project.move["profile"], "distance_m": float(d_m), "max_speed_m_s": drive["max_speed_m_s"],
             "max_accel_m_s2": drive["max_accel_m_s2"], "cycle_s": T,
             "command_end_s": AccelRuns.from_speed(speed, T).command_end_s, "settle_window_s": SETTLE_WINDOW_S,
             "hoisting": False}
