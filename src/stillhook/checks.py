@@ -126,7 +126,8 @@ LIMITS: dict[str, Limit] = {
     "max_schedule_rows": Limit("rows", 1, 4096, integer=True, reason="each row is a table in the drive's memory"),
     # notch
     "width_hz": Limit("Hz", 0.0, 100.0, lo_ok=False, reason="-3 dB width of a notch, above 0 and at most 100 Hz"),
-    "depth_db": Limit("dB", 0.0, 200.0, lo_ok=False, reason="attenuation at the centre; a true null when unset"),
+    "depth_db": Limit("dB", 3.02, 200.0, reason="attenuation at the centre, deeper than 3 dB so the notch has a -3 dB "
+                      "width; a true null when unset"),
     # firmware
     "ram_budget_bytes": Limit("bytes", 64, 1 << 30, integer=True, reason="RAM the drive gives the buffers"),
     "rope_length_lsb_m": Limit("m", 1e-6, 1.0, reason="metres per count of the rope-length input"),

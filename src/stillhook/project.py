@@ -94,6 +94,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
     "notch": {
         "width_hz": Key("number", default=None),
         "depth_db": Key("number", default=None),
+        # default width: -3 dB at the mode's band edges ("band") or the tolerance over the band ("tolerance")
+        "width_rule": Key("choice", default="band", choices=("band", "tolerance")),
     },
     "firmware": {
         "format": Key("choice", default="q15", choices=("q15", "q31")),
