@@ -38,7 +38,8 @@ def test_two_frequencies_give_a_two_mode_shaper_and_drive_cycle_report(capsys):
 
 
 def test_band_method_two_bands_reports_direct_and_convolved(capsys):
-    out = run_json(capsys, "--method", "band", "--band-hz", "0.25", "0.3", "--band-hz", "0.6", "0.8", "--cycle-s", "0.02")
+    out = run_json(capsys, "--method", "band", "--band-hz", "0.25", "0.3", "--band-hz", "0.6", "0.8",
+                   "--cycle-s", "0.02")
     tm = out["two_mode"]
     assert tm["direct"]["duration_s"] <= tm["convolved"]["duration_s"]
     assert out["duration_s"] == tm["direct"]["duration_s"]

@@ -38,7 +38,8 @@ def test_q31_keeps_the_notch_to_five_digits():
 @pytest.mark.parametrize("fmt", ["q15", "q31"])
 def test_dc_gain_is_exactly_one_and_the_null_stays_on_the_unit_circle(fmt):
     T = 0.005
-    designs = [design_notches([0.2, 0.64], T).sos, design_notches([3.0, 7.0], T).sos,
+    designs = [design_notches([0.2, 0.64], T, width_rule="tolerance").sos,
+               design_notches([3.0, 7.0], T, width_rule="tolerance").sos,
                _iirnotch_sos(0.38153, 2.0, 100.0), _iirnotch_sos(4.0, 5.0, 200.0)]
     for sos in designs:
         chk = quantize_notch(sos, fmt, T, 0.5)

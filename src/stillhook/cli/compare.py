@@ -8,8 +8,8 @@ from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
     add_quantity_option,
-    load_project_arg,
     format_table,
+    load_project_arg,
     print_bullets,
     print_cautions,
     print_json,
@@ -39,11 +39,15 @@ def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
 def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.study.compare import compare_project
+    from stillhook.study.ranking import rank_designs, ranking_sentence
 
     project = load_project_arg(args.project)
     result = compare_project(project, distance_m=args.distance_m, include_hoist=not args.no_hoist)
+    ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in result.rows
+                           if r.method != "unshaped"], result.tolerance)
     if args.json:
-        print_json({**result.as_dict(), "cautions": list(CAUTIONS)})
+        print_json({**result.as_dict(), "ranking": [r.as_dict() for r in ranked],
+                    "verdict": ranking_sentence(ranked, result.tolerance), "cautions": list(CAUTIONS)})
         return 0
     rig = result.rig
     print(f"Comparison on {result.project}: {result.distance_m:.4g} m move, nominal rig "
@@ -62,6 +66,7 @@ def run(args: argparse.Namespace) -> int:
     print("\nadded delay: time the load is at rest minus the unshaped command's end ('-': not at rest in the "
           "window); dur: extra command length (notch: ring-out padding); mean delay: sum A_i t_i or the "
           "notch's group delay at DC; end error: final trolley position minus the distance.")
+    print(f"\nRanking: {ranking_sentence(ranked, result.tolerance)}.")
     print_bullets("Notes", result.notes)
     print_cautions()
     return 0

@@ -29,6 +29,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def _summary(result, out: str) -> list[str]:
     from stillhook.cautions import CAUTIONS
+    from stillhook.study.ranking import rank_designs, ranking_sentence
 
     st = result.study
     p = st.project
@@ -43,15 +44,27 @@ def _summary(result, out: str) -> list[str]:
     sched = f", length schedule of {len(d.schedule.shapers)} rows" if d.schedule is not None else ""
     lines.append(f"2 design     shaper {d.shaper.name} ({d.shaper.duration_s:.3g} s){sched}")
     lines.append(f"             why: {d.reason}")
+    if st.move_check is not None:
+        lines.append(f"             {st.move_check.sentence()}")
     if st.comparison is not None:
-        cells = [f"{r.method} {r.residual_pct:.3g} %" for r in st.comparison.rows]
-        lines.append("3 comparison residual sway on the project's move (% of unshaped): " + ", ".join(cells))
+        c = st.comparison
+        cells = [f"{r.method} {r.residual_pct:.3g} %"
+                 + ("" if r.added_delay_s is None else f" +{r.added_delay_s:.3g} s") for r in c.rows]
+        lines.append("3 comparison residual sway on the project's move (% of unshaped, + time added): "
+                     + ", ".join(cells))
+        ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in c.rows
+                               if r.method != "unshaped"], c.tolerance)
+        lines.append(f"             {ranking_sentence(ranked, c.tolerance)}")
     if st.sweep is not None:
         tol = 100 * st.sweep.tolerance
         cells = [f"{s['label']}: {100 * s['share_within_tolerance']:.1f} % (worst {100 * s['worst_ratio']:.3g} %)"
                  for k, s in st.sweep.summary().items() if k != "unshaped"]
         g = st.sweep.grid_shape
         lines.append(f"4 sweep      {g[0]} x {g[1]} rigs within {tol:g} % of unshaped: " + "; ".join(cells))
+        summary = st.sweep.summary()
+        ranked = rank_designs([(k, s["label"], s["worst_ratio"], s["added_s"]) for k, s in summary.items()
+                               if k != "unshaped"], st.sweep.tolerance)
+        lines.append(f"             {ranking_sentence(ranked, st.sweep.tolerance)}")
     for stage, msg in sorted(st.problems.items()):
         lines.append(f"  note       {stage}: {msg}")
     plan = st.emit_plan

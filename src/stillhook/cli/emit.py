@@ -4,7 +4,13 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_out_arguments, add_project_argument, load_project_arg, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_out_arguments,
+    add_project_argument,
+    load_project_arg,
+    print_json,
+)
 
 HELP = "generate fixed-point C (tables, portable runtime, host self-test, manifest) for the drive"
 
@@ -27,9 +33,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook.firmware.plan import write_emit
-
     from stillhook.checks import check_identifier
+    from stillhook.firmware.plan import write_emit
 
     if args.prefix is not None:
         check_identifier("--prefix", args.prefix)

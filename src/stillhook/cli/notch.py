@@ -8,8 +8,8 @@ from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
     add_quantity_option,
-    load_project_arg,
     format_table,
+    load_project_arg,
     print_bullets,
     print_json,
 )

@@ -52,7 +52,8 @@ def run(args: argparse.Namespace) -> int:
 
     project = load_project_arg(args.project)
     grid = tuple(args.grid) if args.grid else REPORT_GRID
-    study, written = write_report(project, args.out, grid=grid, distance_m=args.distance_m, check=not args.no_check, force=args.force,
+    study, written = write_report(project, args.out, grid=grid, distance_m=args.distance_m, check=not args.no_check,
+                                  force=args.force,
                                   progress=stage_printer(not args.json and sys.stderr.isatty()))
     names = sorted(str(p.relative_to(args.out)) for p in written)
     if args.json:

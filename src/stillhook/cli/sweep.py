@@ -9,8 +9,8 @@ from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
     add_quantity_option,
-    load_project_arg,
     format_table,
+    load_project_arg,
     print_cautions,
     print_json,
 )
@@ -61,6 +61,7 @@ class Progress:
 def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.errors import ConfigError
+    from stillhook.study.ranking import rank_designs, ranking_sentence
     from stillhook.study.sweep import DEFAULT_GRID, DESIGN_KEYS, sweep_project
 
     if args.grid is not None and args.samples is not None:
@@ -73,8 +74,12 @@ def run(args: argparse.Namespace) -> int:
     result = sweep_project(project, grid=tuple(args.grid) if args.grid else DEFAULT_GRID, samples=args.samples,
                            seed=args.seed, distance_m=args.distance_m, keys=keys, check=not args.no_check,
                            progress=Progress(sys.stderr) if show else None)
+    summary = result.summary()
+    ranked = rank_designs([(k, s["label"], s["worst_ratio"], s["added_s"]) for k, s in summary.items()
+                           if k != "unshaped"], result.tolerance)
     if args.json:
         print_json({"project": project.name, "input_digest_sha256": project.digest, **result.as_dict(),
+                    "ranking": [r.as_dict() for r in ranked], "verdict": ranking_sentence(ranked, result.tolerance),
                     "cautions": list(CAUTIONS)})
         return 0
     mv, env = result.move, project.envelope
@@ -86,7 +91,7 @@ def run(args: argparse.Namespace) -> int:
           f"rope held; residual = peak |payload offset| over {mv['settle_window_s']:g} s after the command ends.")
     tol = result.tolerance
     rows = []
-    for s in result.summary().values():
+    for s in summary.values():
         at = s["worst_residual_at"]
         worst_mm = 1000 * s["worst_residual_m"]
         rows.append([s["label"], s["added_s"], f"{worst_mm:.0f}" if worst_mm >= 100 else f"{worst_mm:.3g}",
@@ -99,6 +104,7 @@ def run(args: argparse.Namespace) -> int:
         print(f"\nAccuracy: exact on the linear model. At the {len(result.spot_checks)} corners the nonlinear "
               f"simulator agrees within {100 * result.max_disagreement():.2g} % of the unshaped residual "
               f"({100 * result.max_disagreement_of_peak():.2g} % of the peak sway during the move; {checked}).")
+    print(f"\nRanking (worst case over the envelope): {ranking_sentence(ranked, result.tolerance)}.")
     for n in result.notes:
         print(f"Note: {n}")
     print_cautions()

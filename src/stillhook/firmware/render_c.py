@@ -307,7 +307,7 @@ def headroom(plan) -> tuple[float, float, float]:
 
 def render_integration(plan) -> list[str]:
     """README sections a firmware engineer asks first: chaining, stop and fault, contexts, scale, status, cost."""
-    p, f = plan.prefix, plan.fmt
+    f = plan.fmt
     sh = plan.shaper
     row_abs, t, x_max = headroom(plan)
     per_tap, base = STEP_INSTRUCTIONS[f]
@@ -315,10 +315,12 @@ def render_integration(plan) -> list[str]:
     ring_s = sh.ring_len * plan.cycle_s
     lines = ["## Chaining", ""]
     if plan.notch is not None:
-        lines += [f"speed command -> `shk_shaper_{f}_step` -> `shk_biquad_{plan.notch.table.fmt}_step` (notch) -> drive "
-                  "speed reference. Both are linear, so the order does not change the ideal result; shaper first keeps "
-                  "the exact-distance bookkeeping on the operator's command, and the notch's DC gain is exactly 1, so "
-                  "the distance stays exact after it too. Each stage saturates on its own: check both for headroom.", ""]
+        nf = plan.notch.table.fmt
+        lines += [f"speed command -> `shk_shaper_{f}_step` -> `shk_biquad_{nf}_step` (notch) -> drive speed "
+                  "reference. Both are linear, so the order does not change the ideal result; shaper first keeps the "
+                  "exact-distance bookkeeping on the operator's command, and the notch's DC gain is exactly 1, so "
+                  "the distance stays exact after it too. Each stage saturates on its own: check both for headroom.",
+                  ""]
     else:
         lines += [f"speed command -> `shk_shaper_{f}_step` -> drive speed reference. No notch was emitted for this "
                   "project.", ""]

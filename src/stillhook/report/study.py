@@ -24,6 +24,7 @@ from stillhook.notch.design import notch_for_project
 from stillhook.report import figure_data as plot_data
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.study.compare import compare_project
+from stillhook.study.move_check import check_design_on_move
 from stillhook.study.sweep import sweep_project
 from stillhook.version import __version__
 
@@ -45,6 +46,7 @@ class Study:
 
     project: object
     design: object | None = None
+    move_check: object | None = None
     notch: object | None = None
     comparison: object | None = None
     sweep: object | None = None
@@ -101,6 +103,8 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     t0 = time.perf_counter()
     study.design = design_for_project(project)  # without a design there is no report
     study.timings_s["design"] = time.perf_counter() - t0
+    say("design on the project's move")
+    study.move_check = _step(study, "move check", lambda: check_design_on_move(project, study.design.shaper))
     say("notch")
     study.notch = _step(study, "notch", lambda: notch_for_project(project))
     say("comparison")
@@ -170,6 +174,7 @@ def report_json(study: Study) -> dict:
         "modes_nominal": [m.as_dict() for m in env.nominal_rig.modes()],
         "bands_hz": [list(b) for b in env.mode_bands_hz()],
         "design": study.design.as_dict() if study.design is not None else None,
+        "design_on_move": study.move_check.as_dict() if study.move_check is not None else None,
         "notch": study.notch.as_dict() if study.notch is not None else None,
         "comparison": study.comparison.as_dict() if study.comparison is not None else None,
         "sweep": _sweep_json(study.sweep),

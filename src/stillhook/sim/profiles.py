@@ -20,8 +20,8 @@ from stillhook.checks import MAX_MOVE_SAMPLES, check_work, finite_number
 from stillhook.errors import ConfigError
 
 __all__ = [
-    "DEFAULT_JERK_PER_ACCEL_1_S", "check_move_samples", "hoist_lengths", "hoist_speeds", "pendant_steps", "project_move", "s_curve",
-    "trapezoid",
+    "DEFAULT_JERK_PER_ACCEL_1_S", "check_move_samples", "hoist_lengths", "hoist_speeds", "pendant_steps",
+    "project_move", "s_curve", "trapezoid",
 ]
 
 #: S-curve jerk when none is set: the acceleration is reached in 0.25 s (our choice, no source).

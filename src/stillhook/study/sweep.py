@@ -20,7 +20,6 @@ described in :mod:`stillhook.study.modal_sweep`.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 
 import numpy as np
