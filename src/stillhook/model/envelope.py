@@ -127,8 +127,8 @@ class Envelope:
         """The bands every design covers: each mode's band joined with [c / r, c r] around its geometric centre c.
 
         r = ``min_edge_ratio``, default :data:`MIN_BAND_EDGE_RATIO` (1.1, about +-10 %): a narrow or one-point
-        envelope still gets a band for the uncertainty of the model (rope stretch, the payload's centre of mass), the same in the shaper design,
-        the notch and the comparison.
+        envelope still gets a band for the uncertainty of the model (rope stretch, the payload's centre of
+        mass), the same in the shaper design, the notch and the comparison.
         """
         out = []
         for lo, hi in self.mode_bands_hz(n_rope, n_payload):
