@@ -374,7 +374,8 @@ def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) 
     project : stillhook.project.Project
         Uses the envelope's design bands (``Envelope.design_bands_hz``), ``[drive] cycle_s``,
         ``[design] tolerance_pct``, ``[notch] width_hz`` / ``depth_db`` / ``width_rule``, ``[firmware] format``
-        (the format checked for warnings; both are reported) and ``[firmware] max_notch_shift_pct`` (the shift that warns).
+        (the format checked for warnings; both are reported) and ``[firmware] max_notch_shift_pct`` (the shift
+        that warns).
     width_hz, depth_db : float or sequence, optional
         Override the project's ``[notch]`` values.
     tolerance : float in (0, 1), optional
