@@ -61,7 +61,7 @@ def test_dc_gain_is_exactly_one_and_the_null_stays_on_the_unit_circle(fmt):
 
 
 def test_escalation_and_refusal_carry_the_numbers():
-    sos = design_notches([0.2, 0.64], 0.005).sos
+    sos = design_notches([0.2, 0.64], 0.005, width_rule="tolerance").sos  # wide notches: shifted, not lost
     chk, reason = choose_notch_format(sos, "q15", 0.005, 0.01, escalate=True)
     assert chk.table.fmt == "q31" and "Using Q31" in reason and "%" in reason
     with pytest.raises(EmitError, match=r"notch 1 moves from 0\.2 Hz to [\d.]+ Hz \([+-][\d.]+ %\).*1 %"):

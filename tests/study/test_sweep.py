@@ -120,9 +120,10 @@ def test_project_sweep_has_every_design_and_a_json_form(demo_sweep):
     for s in d["summary"].values():
         assert 0.0 <= s["share_within_tolerance"] <= 1.0
     json.dumps(d, allow_nan=False)
-    # designs cut the sway everywhere on this grid
+    # the shapers cut the sway everywhere on this grid; the default notch is -3 dB at its band edges, so on a
+    # single mode it leaves at most 1/sqrt(2) inside the band (|H|^2 = u / (u + zeta_p^2), notch.design)
     for k in r.keys[1:]:
-        assert np.all(r.ratio(k) < 0.5)
+        assert np.all(r.ratio(k) < (0.75 if k == "notch" else 0.5))
 
 
 def test_spot_checks_agree_with_the_nonlinear_simulator(demo_sweep):

@@ -64,6 +64,13 @@ def add_out_arguments(parser: argparse.ArgumentParser, *, required: bool, defaul
                         help="write into a folder stillhook wrote before, replacing only its own files")
 
 
+def say_progress(text: str) -> None:
+    """One progress line on stderr, only on a terminal (pipes and files get nothing)."""
+    if sys.stderr.isatty():
+        sys.stderr.write(f"stillhook: {text} ...\n")
+        sys.stderr.flush()
+
+
 def load_project_arg(name: str | None):
     """The project the positional argument names; says on stderr which one when a file named ``demo`` exists."""
     from stillhook.project import load_project_or_demo

@@ -13,6 +13,7 @@ from stillhook.cli._common import (
     print_bullets,
     print_cautions,
     print_json,
+    say_progress,
 )
 
 HELP = "compare shapers and the notch filter on the project's move (nonlinear simulation, one table)"
@@ -42,6 +43,7 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.study.ranking import rank_designs, ranking_sentence
 
     project = load_project_arg(args.project)
+    say_progress("designing the filters and simulating each on the nonlinear model (tens of seconds)")
     result = compare_project(project, distance_m=args.distance_m, include_hoist=not args.no_hoist)
     ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in result.rows
                            if r.method != "unshaped"], result.tolerance)

@@ -12,6 +12,7 @@ from stillhook.cli._common import (
     load_project_arg,
     print_cautions,
     print_json,
+    say_progress,
 )
 
 HELP = "design a command shaper (ZV, ZVD, ZVDD, EI, two/three-hump EI, UM-ZV, band, two-mode) or a project's"
@@ -125,7 +126,9 @@ def _run_project(args) -> int:
     from stillhook.study.move_check import check_design_on_move
 
     project = load_project_arg(args.project)
+    say_progress("designing the shaper and its schedule")
     d = design_for_project(project)
+    say_progress("checking the design on the project's move (nonlinear, nominal rig and envelope corners)")
     check = check_design_on_move(project, d.shaper)
     out = {"project": project.name, "digest": project.digest, **d.as_dict(), "move_check": check.as_dict()}
     if args.json:

@@ -12,6 +12,7 @@ from stillhook.cli._common import (
     format_table,
     load_project_arg,
     print_json,
+    say_progress,
 )
 
 HELP = "simulate the project's move (unshaped) on the nonlinear hook-and-payload model"
@@ -42,6 +43,7 @@ def run(args: argparse.Namespace) -> int:
     project = load_project_arg(args.project)
     speed, hoist = project_move(project, args.distance_m)
     rig = project.envelope.nominal_rig
+    say_progress(f"simulating {len(speed)} drive cycles and the settle window on the nonlinear model")
     result = simulate(rig, speed, project.drive["cycle_s"], hoist_speed_m_s=hoist)
     metrics = result.metrics()
     if args.out is not None:
