@@ -24,7 +24,7 @@ import numpy as np
 from stillhook.errors import ConfigError
 
 __all__ = [
-    "C_RESERVED_WORDS", "LIMITS", "Limit", "MAX_MOVE_SAMPLES", "MAX_SWEEP_RIGS", "check_identifier",
+    "C_RESERVED_WORDS", "LIMITS", "Limit", "MAX_MOVE_SAMPLES", "MAX_SIM_SAMPLES", "MAX_SWEEP_RIGS", "check_identifier",
     "check_quantity", "check_quantity_array", "check_work", "finite_number",
 ]
 
@@ -142,9 +142,11 @@ LIMITS["nominal_rope_length_m"] = LIMITS["rope_length_m"]
 LIMITS["nominal_payload_mass_kg"] = LIMITS["payload_mass_kg"]
 LIMITS["hoist_to_m"] = LIMITS["rope_length_m"]
 
-#: Samples of one simulated move (command plus settle window) at most: 400 000 is 2000 s at a 5 ms cycle and
-#: about 15 s of nonlinear simulation on one core, ~30 MB of recording.
+#: Drive cycles of one move command at most: 400 000 is 2000 s at a 5 ms cycle, about 15 s of nonlinear
+#: simulation on one core.
 MAX_MOVE_SAMPLES = 400_000
+#: Samples of one simulation (command, filter ring-out and settle window) at most: ~160 MB of recording.
+MAX_SIM_SAMPLES = 2_000_000
 #: Rigs of one envelope sweep at most (201 x 201).
 MAX_SWEEP_RIGS = 201 * 201
 

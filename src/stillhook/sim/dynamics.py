@@ -40,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from stillhook.checks import MAX_MOVE_SAMPLES, check_quantity, check_work
+from stillhook.checks import MAX_SIM_SAMPLES, check_quantity, check_work
 from stillhook.errors import ConfigError
 from stillhook.model.rig import Rig
 
@@ -205,8 +205,8 @@ def simulate(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=None, hoist_s
     Ts = check_quantity("cycle_s", cycle_s)
     settle_s = check_quantity("settle_s", settle_s)
     v_cmd = _as_samples("speed_m_s", speed_m_s)
-    check_work("drive cycles to simulate (command and settle window)", len(v_cmd) + settle_s / Ts, MAX_MOVE_SAMPLES,
-               hint="use a shorter move or a longer drive cycle (limit: stillhook.checks.MAX_MOVE_SAMPLES)")
+    check_work("drive cycles to simulate (command and settle window)", len(v_cmd) + settle_s / Ts, MAX_SIM_SAMPLES,
+               hint="use a shorter move or a longer drive cycle (limit: stillhook.checks.MAX_SIM_SAMPLES)")
     if rope_length_m is not None and hoist_speed_m_s is not None:
         raise ConfigError("give rope_length_m or hoist_speed_m_s, not both")
     if rope_length_m is not None:
