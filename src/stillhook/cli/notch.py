@@ -48,6 +48,11 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.errors import ConfigError
     from stillhook.notch.design import design_notches, notch_for_project
 
+    for flag, values in (("--width-hz", args.width_hz), ("--depth-db", args.depth_db)):
+        n = len(args.frequency_hz or ()) or 2
+        if values is not None and len(values) not in (1, n) and args.frequency_hz:
+            raise ConfigError(f"{flag} given {len(values)} times for {n} notch frequencies; allowed: once for all "
+                              "or once per --frequency-hz")
     width, depth = _one_or_list(args.width_hz), _one_or_list(args.depth_db)
     source = {}
     if args.project is not None:
