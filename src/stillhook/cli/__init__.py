@@ -45,7 +45,8 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
     for name, module in _available_commands():
-        p = sub.add_parser(name, help=module.HELP, description=module.HELP, epilog="examples:\n" + getattr(module, "EXAMPLES", ""),
+        examples = "examples:\n" + getattr(module, "EXAMPLES", "")
+        p = sub.add_parser(name, help=module.HELP, description=module.HELP, epilog=examples,
                            formatter_class=argparse.RawDescriptionHelpFormatter)
         module.add_arguments(p)
         p.set_defaults(_run=module.run)

@@ -37,6 +37,18 @@ def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
     return "-" if value is None else format(value * scale, fmt)
 
 
+def _over_limits(result, drive: dict) -> list[str]:
+    """Rows whose command exceeds the drive's speed or acceleration limit (a notch can overshoot its input)."""
+    out = []
+    for r in result.rows:
+        for what, value, limit, unit in (("speed", r.peak_speed_m_s, drive["max_speed_m_s"], "m/s"),
+                                         ("acceleration", r.peak_accel_m_s2, drive["max_accel_m_s2"], "m/s2")):
+            if value > limit * (1 + 1e-9):
+                out.append(f"{r.label}: the command reaches {value:.3g} {unit}, {100 * (value / limit - 1):.3g} % "
+                           f"above the drive's {what} limit of {limit:g} {unit}")
+    return out
+
+
 def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.study.compare import compare_project
@@ -49,6 +61,7 @@ def run(args: argparse.Namespace) -> int:
                            if r.method != "unshaped"], result.tolerance)
     if args.json:
         print_json({**result.as_dict(), "ranking": [r.as_dict() for r in ranked],
+                    "over_drive_limits": _over_limits(result, project.drive),
                     "verdict": ranking_sentence(ranked, result.tolerance), "cautions": list(CAUTIONS)})
         return 0
     rig = result.rig
@@ -69,6 +82,7 @@ def run(args: argparse.Namespace) -> int:
           "window); dur: extra command length (notch: ring-out padding); mean delay: sum A_i t_i or the "
           "notch's group delay at DC; end error: final trolley position minus the distance.")
     print(f"\nRanking: {ranking_sentence(ranked, result.tolerance)}.")
+    print_bullets("Warnings", _over_limits(result, project.drive))
     print_bullets("Notes", result.notes)
     print_cautions()
     return 0
