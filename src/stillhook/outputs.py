@@ -164,7 +164,10 @@ def write_files(out_dir: str | Path, files: dict[str, str | bytes], *, force: bo
     try:
         _stage(tmp, files)
         if out.is_dir() and not any(out.iterdir()):
-            out.rmdir()
+            try:
+                out.rmdir()  # an empty folder is replaced by the finished one in one rename
+            except OSError:
+                pass  # e.g. the current folder or a mount point: the files are moved in instead
         if not out.exists():
             os.rename(tmp, out)
         else:

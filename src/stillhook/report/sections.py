@@ -35,6 +35,11 @@ def section_summary(study) -> str:
             f"(worst {num(100 * s['worst_ratio'], '.3g')} % at {num(at['rope_length_m'], '.3g')} m rope, "
             f"{num(at['payload_mass_kg'], '.4g')} kg). It lengthens a move by at most "
             f"{num(s['added_s'], '.3g')} s.")
+    mc = study.move_check
+    if mc is not None:
+        # the sweep holds the rope; the project's own move may hoist: say both (issue 11)
+        text += f" The envelope shaper, checked {esc(mc.sentence())}."
+        ok = ok and mc.holds
     return f'<div class="verdict{"" if ok else " bad"}"><strong>Summary.</strong> {text}</div>'
 
 
