@@ -37,6 +37,7 @@ _API = {
     "band_shaper": "stillhook.shaping.band_design", "two_mode_shapers": "stillhook.shaping.band_design",
     "design_for_project": "stillhook.shaping.envelope_design",
     "schedule_for_project": "stillhook.shaping.envelope_design",
+    "clear_design_caches": "stillhook.shaping.design_cache",
     # notch
     "design_notches": "stillhook.notch.design", "notch_for_project": "stillhook.notch.design",
     "NotchDesign": "stillhook.notch.cascade",

@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 
 from stillhook.project import load_project, project_from_dict
+from stillhook.shaping.design_cache import DESIGN_CACHE, clear_design_caches
 from stillhook.shaping.envelope_design import design_for_project, schedule_for_project, schedule_ratio
 from stillhook.shaping.residual_map import payload_participations, residual_ratio
 
@@ -79,14 +80,11 @@ def test_demo_schedule_rows_lookup_and_between_rows(demo_project, demo_design):
     assert sched.shapers[0].duration_s < demo_design.shaper.duration_s
 
 
-def test_design_as_dict_is_json_and_deterministic(demo_project, demo_design, monkeypatch):
-    import stillhook.shaping.band_design as shaper_opt
-    import stillhook.shaping.envelope_design as design
-
+def test_design_as_dict_is_json_and_deterministic(demo_project, demo_design):
     a = json.dumps(demo_design.as_dict(), allow_nan=False, sort_keys=False)
     # empty the design caches so the second design is really computed again
-    monkeypatch.setattr(design, "_CACHE", {})
-    monkeypatch.setattr(shaper_opt, "_MEMO", {})
+    clear_design_caches()
+    assert sum(DESIGN_CACHE.sizes().values()) == 0
     b = json.dumps(design_for_project(demo_project).as_dict(), allow_nan=False)
     assert a == b
     d = json.loads(a)

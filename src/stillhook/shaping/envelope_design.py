@@ -40,6 +40,7 @@ from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.lookup import row_edges_m, schedule_rows
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
@@ -63,8 +64,6 @@ ROW_OVERLAP = 0.05
 #: Schedule rows skip trying a low-mode-only shaper when the high mode's share of the payload
 #: participation exceeds this multiple of the tolerance.
 _GATE_SHARE_PER_TOL = 2.0
-_CACHE: dict[str, object] = {}
-_CACHE_SIZE = 32
 
 
 @dataclass(frozen=True, eq=False)
@@ -316,14 +315,6 @@ def _key(project, what: str) -> str:
     return what + json.dumps([project.envelope.describe(), project.drive, project.design], sort_keys=True)
 
 
-def _cached(key: str, make):
-    if key not in _CACHE:
-        if len(_CACHE) >= _CACHE_SIZE:
-            _CACHE.pop(next(iter(_CACHE)))
-        _CACHE[key] = make()
-    return _CACHE[key]
-
-
 # -- schedule ----------------------------------------------------------------------------------
 def schedule_rope_lengths(env, max_rows: int) -> np.ndarray:
     """Row rope lengths: evenly spaced in log(L1 + L2), so each row spans about ROW_SPREAD of
@@ -397,7 +388,7 @@ def design_for_project(project) -> Design:
         A mode that needs treatment lies above half the drive rate, or no shaper meets the
         tolerance over the bands.
     """
-    return _cached(_key(project, "design"), lambda: _design(project))
+    return DESIGN_CACHE.get("project_design", _key(project, "design"), lambda: _design(project))
 
 
 def schedule_for_project(project) -> Schedule:
@@ -405,7 +396,7 @@ def schedule_for_project(project) -> Schedule:
     d = design_for_project(project)
     if d.schedule is not None:
         return d.schedule
-    return _cached(_key(project, "schedule"), lambda: _schedule(project, d.shaper))
+    return DESIGN_CACHE.get("project_design", _key(project, "schedule"), lambda: _schedule(project, d.shaper))
 
 
 def _design(project) -> Design:
