@@ -29,7 +29,7 @@ _API = {
     # motion and simulation
     "trapezoid": "stillhook.sim.profiles", "s_curve": "stillhook.sim.profiles",
     "project_move": "stillhook.sim.profiles", "simulate": "stillhook.sim.dynamics",
-    "SimResult": "stillhook.sim.dynamics",
+    "SimResult": "stillhook.sim.dynamics", "CommandFilter": "stillhook.sim.command_filter",
     # shaping
     "Shaper": "stillhook.shaping.shaper", "residual_vibration": "stillhook.shaping.shaper",
     "zv": "stillhook.shaping.closed_forms", "zvd": "stillhook.shaping.closed_forms",

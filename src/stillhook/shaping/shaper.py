@@ -115,6 +115,9 @@ def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 
 class Shaper:
     """An input shaper: impulses at ``times_s`` with ``amplitudes``.
 
+    A command filter (:class:`stillhook.sim.command_filter.CommandFilter`): ``apply``,
+    ``added_duration_s``, ``mean_delay_s``, ``residual_vibration``.
+
     Parameters
     ----------
     times_s : array (n,), strictly ascending, times_s[0] == 0
@@ -189,6 +192,16 @@ class Shaper:
     def duration_s(self) -> float:
         """Last impulse time (s)."""
         return float(self.times_s[-1])
+
+    @property
+    def added_duration_s(self) -> float:
+        """How much longer a shaped command runs (s): the last impulse time (command-filter interface)."""
+        return self.duration_s
+
+    @property
+    def mean_delay_s(self) -> float:
+        """Mean delay sum A_i t_i (s), the centroid of the impulses (command-filter interface)."""
+        return float(np.dot(self.amplitudes, self.times_s))
 
     @property
     def n_impulses(self) -> int:

@@ -6,6 +6,9 @@ Every name below is loaded from its module on first use (see :mod:`stillhook.laz
 from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
+    "CommandFilter": "stillhook.sim.command_filter",
+    "Unfiltered": "stillhook.sim.command_filter",
+    "UNFILTERED": "stillhook.sim.command_filter",
     "SimResult": "stillhook.sim.dynamics",
     "time_within_s": "stillhook.sim.dynamics",
     "simulate": "stillhook.sim.dynamics",
