@@ -51,6 +51,7 @@ def run(args: argparse.Namespace) -> int:
         return _run_project(args)
     if args.method is None:
         raise ConfigError("missing --method; allowed: " + ", ".join(METHODS) + " (or give a project file)")
+    from stillhook.cautions import CAUTIONS
     from stillhook.shaping.request import shaper_request
 
     out = shaper_request(method=args.method, freqs_hz=args.frequency_hz or [], bands_hz=args.band or [],
@@ -58,7 +59,7 @@ def run(args: argparse.Namespace) -> int:
                          tolerance_pct=5.0 if args.tolerance is None else args.tolerance,
                          cycle_s=args.cycle_s, remedy=args.remedy)
     if args.json:
-        print_json(out)
+        print_json({**out, "cautions": list(CAUTIONS)})
         return 0
     _print_request(out)
     print_cautions()
@@ -114,12 +115,13 @@ def _print_request(out: dict) -> None:
 
 
 def _run_project(args) -> int:
+    from stillhook.cautions import CAUTIONS
     from stillhook.project import load_project_or_demo
     from stillhook.shaping.envelope_design import design_for_project
 
     project = load_project_or_demo(args.project)
     d = design_for_project(project)
-    out = {"project": project.name, "digest": project.digest, **d.as_dict()}
+    out = {"project": project.name, "digest": project.digest, **d.as_dict(), "cautions": list(CAUTIONS)}
     if args.json:
         print_json(out)
         return 0

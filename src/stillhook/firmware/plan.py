@@ -146,7 +146,7 @@ class EmitPlan:
         }
 
     def manifest(self, files: list[str]) -> dict:
-        """The manifest.json content (deterministic key order)."""
+        """The manifest.json content but the cautions, which :func:`render_files` adds (deterministic key order)."""
         s = self.schedule
         out = {
             "tool": "stillhook",
@@ -189,7 +189,6 @@ class EmitPlan:
             }
         out["sizes"] = self.sizes()
         out["files"] = sorted(files)
-        out["cautions"] = list(CAUTIONS)
         return out
 
 
@@ -310,7 +309,7 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
     files[f"{p}_selftest.c"] = render_selftest(plan)
     files[f"{p}_README.md"] = render_readme(plan)
     names = sorted([*files, "manifest.json"])
-    files["manifest.json"] = to_json(plan.manifest(names))
+    files["manifest.json"] = to_json({**plan.manifest(names), "cautions": list(CAUTIONS)})
     return {k: files[k] for k in sorted(files)}
 
 

@@ -35,7 +35,6 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from stillhook.cautions import CAUTIONS
 from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
@@ -222,7 +221,6 @@ class Design:
         out["convolved_duration_s"] = None if self.convolved is None else self.convolved.duration_s
         out["schedule"] = None if self.schedule is None else self.schedule.as_dict()
         out["schedule_worst_residual_ratio"] = self.schedule_worst_ratio
-        out["cautions"] = list(CAUTIONS)
         return out
 
 

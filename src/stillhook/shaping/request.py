@@ -12,7 +12,6 @@ import math
 
 import numpy as np
 
-from stillhook.cautions import CAUTIONS
 from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
@@ -123,5 +122,4 @@ def shaper_request(method: str, freqs_hz, bands_hz=(), damping_ratio: float = 0.
         effects["impulses"] = on_grid.as_dict(cycle)["impulses"]
         effects["design_frequencies_hz"] = [float(f) for f in np.atleast_1d(design_freqs)]
         out["drive_cycle"] = effects
-    out["cautions"] = list(CAUTIONS)
     return out
