@@ -41,9 +41,9 @@ def main() -> None:
 
     import stillhook.shaping.band_design as opt
     import stillhook.shaping.envelope_design as design_mod
-    from stillhook.shaping.design_cache import clear_design_caches
     from stillhook.project import load_demo_project
     from stillhook.shaping.closed_forms import ei2, zvd
+    from stillhook.shaping.design_cache import clear_design_caches
 
     # -- V over 10,000 frequencies -------------------------------------------------------------
     s = zvd(0.2, 0.01).convolve(ei2(0.6, 0.01))

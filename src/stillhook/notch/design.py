@@ -57,8 +57,9 @@ import math
 import numpy as np
 
 from stillhook.errors import ConfigError, DesignError
+from stillhook.fixed_point import FRACTION_BITS
 from stillhook.notch.cascade import TAIL_DECAY, NotchDesign, NotchSection, sos_response
-from stillhook.notch.rounding import FORMAT_BITS, NotchShift, auto_post_shift, quantized_notch_shift
+from stillhook.notch.rounding import NotchShift, auto_post_shift, quantized_notch_shift
 
 __all__ = ["NotchDesign", "NotchSection", "design_notches", "notch_for_project", "quantized_notch_shift",
            "NotchShift", "band_centre_hz", "pole_damping_for_band", "notch_section", "TAIL_DECAY"]
@@ -237,7 +238,7 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
     widths = _per_notch("width_hz", width_hz, n, "a finite number > 0 (Hz), or one per notch")
     depths = _per_notch("depth_db", depth_db, n, "a finite number > 0 (dB), or one per notch")
     for fmt in warn_formats:
-        if fmt not in FORMAT_BITS:
+        if fmt not in FRACTION_BITS:
             raise ConfigError(f"warn_formats entry {fmt!r} is not allowed; allowed: 'q15', 'q31'")
     if bands_hz is None:
         bands = [None] * n
@@ -290,7 +291,7 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
                             f"{100 * tol:.3g} % tolerance{why}")
 
     quantization, post_shift = {}, {}
-    for fmt in FORMAT_BITS:
+    for fmt in FRACTION_BITS:
         post_shift[fmt] = auto_post_shift(sos, fmt)
         quantization[fmt] = tuple(quantized_notch_shift(sos, fmt, T, post_shift=post_shift[fmt]))
         if fmt in warn_formats:
