@@ -60,6 +60,7 @@ from stillhook.errors import ConfigError, DesignError
 from stillhook.fixed_point import FRACTION_BITS
 from stillhook.notch.cascade import TAIL_DECAY, NotchDesign, NotchSection, sos_response
 from stillhook.notch.rounding import NotchShift, auto_post_shift, quantized_notch_shift
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = ["NotchDesign", "NotchSection", "design_notches", "notch_for_project", "quantized_notch_shift",
            "NotchShift", "band_centre_hz", "pole_damping_for_band", "notch_section", "TAIL_DECAY"]
@@ -222,15 +223,11 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
         tolerance with a derived width; poles not strictly inside the unit circle.
     """
     T = _number("cycle_s", cycle_s)
-    nyquist = 0.5 / T
     freqs = [freqs_hz] if np.ndim(freqs_hz) == 0 else list(freqs_hz)
     if not 1 <= len(freqs) <= 16:
         raise ConfigError(f"{len(freqs)} notch frequencies given; allowed: 1 to 16")
     freqs = [_number("notch frequency_hz", f) for f in freqs]
-    for f in freqs:
-        if f >= nyquist:
-            raise DesignError(f"notch frequency {f:g} Hz is at or above half the drive rate ({nyquist:g} Hz "
-                              f"for cycle_s = {T:g} s); allowed: 0 < f < {nyquist:g} Hz")
+    check_below_half_rate(freqs, T, what="notch frequency", strict=True)
     n = len(freqs)
     tol = _number("tolerance", tolerance, hi=1.0, allowed="a number in (0, 1)")
     zeta_cap = _number("max_pole_damping", max_pole_damping)
@@ -251,9 +248,9 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
             raise ConfigError(f"bands_hz = {bands_hz!r} is not allowed; allowed: one (lo, hi) pair per notch ({n})")
         bands = [(_number("band lower edge (Hz)", lo), _number("band upper edge (Hz)", hi)) for lo, hi in bands]
         for lo, hi in bands:
-            if lo > hi or hi >= nyquist:
-                raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi < {nyquist:g} Hz "
-                                  "(half the drive rate)")
+            if lo > hi:
+                raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi")
+            check_below_half_rate([hi], T, what=f"the upper edge of band [{lo:g}, {hi:g}],", strict=True)
 
     rows, params, notes = [], [], []
     for i, (f0, width, depth, band) in enumerate(zip(freqs, widths, depths, bands, strict=True)):
@@ -344,11 +341,8 @@ def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) 
     """
     T = project.drive["cycle_s"]
     bands = project.envelope.mode_bands_hz()
-    nyquist = 0.5 / T
     for i, (_lo, hi) in enumerate(bands):
-        if hi >= nyquist:
-            raise DesignError(f"sway mode {i + 1} reaches {hi:g} Hz, at or above half the drive rate "
-                              f"({nyquist:g} Hz); allowed: a drive cycle_s below {0.5 / hi:g} s")
+        check_below_half_rate([hi], T, what=f"sway mode {i + 1}'s highest frequency", strict=True)
     freqs = [band_centre_hz(lo, hi, T) for lo, hi in bands]
     width = project.notch["width_hz"] if width_hz is None else width_hz
     depth = project.notch["depth_db"] if depth_db is None else depth_db

@@ -62,7 +62,6 @@ _EXPORTS = {
     "check_damping": "stillhook.shaping.shaper",
     "check_tolerance": "stillhook.shaping.shaper",
     "check_cycle": "stillhook.shaping.shaper",
-    "check_below_half_rate": "stillhook.shaping.shaper",
     "residual_vibration": "stillhook.shaping.shaper",
     "Shaper": "stillhook.shaping.shaper",
     "sensitivity_curve": "stillhook.shaping.shaper",

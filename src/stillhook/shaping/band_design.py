@@ -31,7 +31,6 @@ from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.lp_grid import MAX_BASIS_ENTRIES, ProblemTooLarge, optimize_on_grid
 from stillhook.shaping.shaper import (
     Shaper,
-    check_below_half_rate,
     check_cycle,
     check_damping,
     check_frequency,
@@ -39,6 +38,7 @@ from stillhook.shaping.shaper import (
     insensitive_band_hz,
     worst_vibration,
 )
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
     "MAX_COVER_IMPULSES", "TwoModeShapers", "band_shaper", "closed_form_cover", "family_region", "multi_band_shaper",

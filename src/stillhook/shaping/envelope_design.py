@@ -43,6 +43,7 @@ from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.lookup import row_edges_m, schedule_rows
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "MIN_BAND_HALF_WIDTH", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
@@ -295,18 +296,14 @@ def _decide(env, method: str, bands, tol: float, tol_d: float, zeta: float, cycl
                f"payload's sway participation")
     if ratio[k] <= tol:
         return low, None, False, f"high mode not treated: {numbers}, within the {100 * tol:g} % tolerance"
-    if bands[1][1] > 0.5 / cycle_s:
-        raise DesignError(f"the high sway mode reaches {bands[1][1]:.4g} Hz, above half the drive rate "
-                          f"({0.5 / cycle_s:.4g} Hz for a {cycle_s:g} s cycle) and it needs treatment ({numbers}); "
-                          "allowed: a shorter drive cycle")
+    check_below_half_rate([bands[1][1]], cycle_s, what="the high sway mode's highest frequency",
+                          detail=f" and it needs treatment ({numbers})")
     both, conv = _both_bands(method, bands, tol_d, zeta, cycle_s, start, with_convolved, hint_s)
     return both, conv, True, f"high mode treated: {numbers}, above the {100 * tol:g} % tolerance"
 
 
 def _check_low_band(bands, cycle_s: float) -> None:
-    if bands[0][1] > 0.5 / cycle_s:
-        raise DesignError(f"the low sway mode reaches {bands[0][1]:.4g} Hz, above half the drive rate "
-                          f"({0.5 / cycle_s:.4g} Hz for a {cycle_s:g} s cycle); allowed: a shorter drive cycle")
+    check_below_half_rate([bands[0][1]], cycle_s, what="the low sway mode's highest frequency")
 
 
 def _key(project, what: str) -> str:

@@ -16,7 +16,8 @@ from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import grid_effects, to_cycle_grid
-from stillhook.shaping.shaper import Shaper, check_below_half_rate, check_cycle, insensitive_band_hz, worst_vibration
+from stillhook.shaping.shaper import Shaper, check_cycle, insensitive_band_hz, worst_vibration
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = ["check_request", "shaper_request"]
 

@@ -35,7 +35,7 @@ from stillhook.checks import finite_number
 from stillhook.errors import DesignError
 
 __all__ = [
-    "Shaper", "TIME_MERGE_S", "check_below_half_rate", "check_cycle", "check_damping", "check_frequency",
+    "Shaper", "TIME_MERGE_S", "check_cycle", "check_damping", "check_frequency",
     "check_tolerance", "insensitive_band_hz", "insensitivity_width", "residual_vibration", "sensitivity_curve",
     "worst_vibration",
 ]
@@ -66,15 +66,6 @@ def check_tolerance(tolerance: float) -> float:
 def check_cycle(cycle_s: float) -> float:
     """The drive cycle (s) as a finite number > 0, else DesignError."""
     return finite_number("cycle_s", cycle_s, allowed="a finite number > 0", error=DesignError, lo=0.0, lo_ok=False)
-
-
-def check_below_half_rate(freqs_hz, cycle_s: float) -> None:
-    """DesignError naming the first frequency above half the drive rate 1 / (2 cycle_s)."""
-    nyquist = 0.5 / cycle_s
-    for f in freqs_hz:
-        if f > nyquist:
-            raise DesignError(f"frequency {f:g} Hz is above half the drive rate ({nyquist:g} Hz for a "
-                              f"{cycle_s:g} s cycle); allowed: frequencies <= {nyquist:g} Hz")
 
 
 def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:
