@@ -137,8 +137,10 @@ def _run_project(args) -> int:
           f"(rope {d.worst_at[0]:.4g} m, payload {d.worst_at[1]:.5g} kg); worst V per mode: "
           + ", ".join(_pct(v) for v in d.worst_vibration))
     if d.schedule is not None:
+        from stillhook.shaping.lookup import rule_words
+
         s = d.schedule
-        print(f"\nLength schedule ({s.reason}; lookup: nearest row, the longer row on a tie):")
+        print(f"\nLength schedule ({s.reason}; lookup: {rule_words(s.lookup_rule)}):")
         print(format_table(["row", "rope m", "serves from m", "to m", "duration s", "impulses", "high mode"],
                            [[i + 1, float(L), a, b, sh.duration_s, sh.n_impulses, "yes" if h else "no"]
                             for i, (L, sh, h, (a, b)) in enumerate(zip(s.rope_lengths_m, s.shapers,

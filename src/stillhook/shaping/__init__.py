@@ -45,6 +45,8 @@ _EXPORTS = {
     "ROW_SPREAD": "stillhook.shaping.envelope_design",
     "ROW_OVERLAP": "stillhook.shaping.envelope_design",
     "LOOKUP_RULES": "stillhook.shaping.lookup",
+    "RULE_WORDS": "stillhook.shaping.lookup",
+    "rule_words": "stillhook.shaping.lookup",
     "lookup_thresholds": "stillhook.shaping.lookup",
     "rope_length_counts": "stillhook.shaping.lookup",
     "row_edges_m": "stillhook.shaping.lookup",

@@ -40,7 +40,7 @@ from stillhook.shaping.band_design import band_shaper, family_region, multi_band
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
 from stillhook.shaping.design_cache import DESIGN_CACHE
-from stillhook.shaping.lookup import row_edges_m, schedule_rows
+from stillhook.shaping.lookup import row_edges_m, rule_words, schedule_rows
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
@@ -143,7 +143,7 @@ class Schedule:
     def as_dict(self) -> dict:
         return {
             "lookup_rule": self.lookup_rule,
-            "lookup": "row = count of switch_lengths_m <= measured rope length (nearest row, longer on a tie)",
+            "lookup": f"row = count of switch_lengths_m <= measured rope length ({rule_words(self.lookup_rule)})",
             "reason": self.reason,
             "cycle_s": self.cycle_s,
             "tolerance": self.tolerance,
