@@ -19,7 +19,6 @@ __all__ = [
 ]
 
 
-
 def c_lit(v: int, ctype: str) -> str:
     v = int(v)
     if ctype == "uint32_t":
@@ -102,12 +101,10 @@ def c_comment(lines: list[str]) -> str:
     return "/*\n" + "\n".join((" * " + ln).rstrip() for ln in lines) + "\n */\n"
 
 
-def render_tables_h(plan) -> str:
-    """``<prefix>_tables.h``: provenance, sizes, the version check and the table declarations."""
+def _usage(plan) -> list[str]:
+    """How to call the runtime with these tables (comment lines of the header)."""
     p, f = plan.prefix, plan.fmt
-    amp_t = WIDE_C_TYPES[f]
-    sh, sz = plan.shaper, plan.sizes()
-    usage = [
+    return [
         "",
         "Use (one instance per drive axis; every buffer is yours, nothing is allocated):",
         f"    static {WIDE_C_TYPES[f]} ring[{c_m(plan, 'RING_LEN')}];   ({c_m(plan, 'RING_BYTES')} bytes)",
@@ -122,50 +119,65 @@ def render_tables_h(plan) -> str:
         f"        speed_out = shk_shaper_{f}_step(&shaper, speed_in);   (fractions of full-scale speed)",
         "    (shaper.clipped != 0: an output saturated, the exact-distance guarantee no longer holds)",
     ]
-    out = [c_comment(_provenance(plan, f"{p}_tables.h") + usage),
+
+
+def render_tables_h(plan) -> str:
+    """``<prefix>_tables.h``: provenance, sizes, the version check and the table declarations."""
+    p, f = plan.prefix, plan.fmt
+    sh = plan.shaper
+    out = [c_comment(_provenance(plan, f"{p}_tables.h") + _usage(plan)),
            f"#ifndef {_guard(plan)}", f"#define {_guard(plan)}", "",
            '#include "shk_fixed.h"', '#include "shk_schedule.h"', '#include "shk_shaper.h"',
-           '#include "shk_biquad.h"', "",
-           f"#define {c_m(plan, 'RUNTIME_VERSION')} {RUNTIME_VERSION}",
-           f"#if !defined(SHK_RUNTIME_VERSION) || (SHK_RUNTIME_VERSION != {c_m(plan, 'RUNTIME_VERSION')})",
-           f'#error "{p} tables need stillhook runtime version {RUNTIME_VERSION}: copy the shk_* files '
-           'emitted with them"',
-           "#endif", "",
-           f"#define {c_m(plan, 'INPUT_DIGEST')} {_c_string(plan.digest)}",
-           f"#define {c_m(plan, 'TOOL_VERSION')} {_c_string(__version__)}",
-           f"#define {c_m(plan, 'FORMAT_' + f.upper())} 1",
-           f"#define {c_m(plan, 'CYCLE_NS')} {round(plan.cycle_s * 1e9)}u",
-           f"#define {c_m(plan, 'ROWS')} {sh.n_rows}u",
-           f"#define {c_m(plan, 'TAPS_STRIDE')} {sh.stride}u",
-           f"#define {c_m(plan, 'RING_LEN')} {sh.ring_len}u",
-           f"#define {c_m(plan, 'RING_BYTES')} {sz['ring_bytes']}u",
-           f"#define {c_m(plan, 'AMPLITUDE_ABS_SUM')} {c_lit(sh.abs_sum, 'int64_t')}",
-           f"#define {c_m(plan, 'ROPE_LSB_NM')} {round(plan.schedule.lsb_m * 1e9)}u",
-           f"#define {c_m(plan, 'ROPE_MIN')} {plan.schedule.length_min}u",
-           f"#define {c_m(plan, 'ROPE_MAX')} {plan.schedule.length_max}u",
-           f"#define {c_m(plan, 'RAM_BYTES')} {sz['ram_bytes']}u",
-           f"#define {c_m(plan, 'TABLE_BYTES')} {sz['flash_table_bytes']}u", "",
+           '#include "shk_biquad.h"', "", *_defines(plan),
            f"extern const uint32_t {p}_shaper_n_taps[];",
-           f"extern const {amp_t} {p}_shaper_amplitudes[];",
+           f"extern const {WIDE_C_TYPES[f]} {p}_shaper_amplitudes[];",
            f"extern const uint32_t {p}_shaper_delays[];",
            f"extern const shk_shaper_{f}_table_t {p}_shaper_table;",
            f"extern const shk_schedule_t {p}_schedule;"]
     if sh.n_rows > 1:
         out.append(f"extern const uint32_t {p}_schedule_thresholds[];")
     if plan.notch is not None:
-        t = plan.notch.table
-        nf = t.fmt
-        out += ["", f"#define {c_m(plan, 'NOTCH_STAGES')} {t.n_stages}u",
-                f"#define {c_m(plan, 'NOTCH_POST_SHIFT')} {t.post_shift}u",
-                f"#define {c_m(plan, 'NOTCH_STATE_LEN')} {4 * t.n_stages}u",
-                f"/* CMSIS-DSP compatible: arm_biquad_cascade_df1_init_{nf}(&S, {t.n_stages}, {p}_notch_coeffs, "
-                f"state, {t.post_shift}) */",
-                f"extern const {SAMPLE_C_TYPES[nf]} {p}_notch_coeffs[];",
-                f"extern const shk_biquad_{nf}_table_t {p}_notch_table;"]
+        out += _notch_declarations(plan)
     out += ["", f"#endif /* {_guard(plan)} */", ""]
     return "\n".join(out)
 
 
+def _defines(plan) -> list[str]:
+    """The version check and the ``#define`` lines of every size and constant (ends with a blank line)."""
+    p, f = plan.prefix, plan.fmt
+    sh, sz = plan.shaper, plan.sizes()
+    return [f"#define {c_m(plan, 'RUNTIME_VERSION')} {RUNTIME_VERSION}",
+            f"#if !defined(SHK_RUNTIME_VERSION) || (SHK_RUNTIME_VERSION != {c_m(plan, 'RUNTIME_VERSION')})",
+            f'#error "{p} tables need stillhook runtime version {RUNTIME_VERSION}: copy the shk_* files '
+            'emitted with them"',
+            "#endif", "",
+            f"#define {c_m(plan, 'INPUT_DIGEST')} {_c_string(plan.digest)}",
+            f"#define {c_m(plan, 'TOOL_VERSION')} {_c_string(__version__)}",
+            f"#define {c_m(plan, 'FORMAT_' + f.upper())} 1",
+            f"#define {c_m(plan, 'CYCLE_NS')} {round(plan.cycle_s * 1e9)}u",
+            f"#define {c_m(plan, 'ROWS')} {sh.n_rows}u",
+            f"#define {c_m(plan, 'TAPS_STRIDE')} {sh.stride}u",
+            f"#define {c_m(plan, 'RING_LEN')} {sh.ring_len}u",
+            f"#define {c_m(plan, 'RING_BYTES')} {sz['ring_bytes']}u",
+            f"#define {c_m(plan, 'AMPLITUDE_ABS_SUM')} {c_lit(sh.abs_sum, 'int64_t')}",
+            f"#define {c_m(plan, 'ROPE_LSB_NM')} {round(plan.schedule.lsb_m * 1e9)}u",
+            f"#define {c_m(plan, 'ROPE_MIN')} {plan.schedule.length_min}u",
+            f"#define {c_m(plan, 'ROPE_MAX')} {plan.schedule.length_max}u",
+            f"#define {c_m(plan, 'RAM_BYTES')} {sz['ram_bytes']}u",
+            f"#define {c_m(plan, 'TABLE_BYTES')} {sz['flash_table_bytes']}u", ""]
+
+
+def _notch_declarations(plan) -> list[str]:
+    """The notch's ``#define`` and ``extern`` lines (CMSIS-DSP compatible layout)."""
+    p, t = plan.prefix, plan.notch.table
+    nf = t.fmt
+    return ["", f"#define {c_m(plan, 'NOTCH_STAGES')} {t.n_stages}u",
+            f"#define {c_m(plan, 'NOTCH_POST_SHIFT')} {t.post_shift}u",
+            f"#define {c_m(plan, 'NOTCH_STATE_LEN')} {4 * t.n_stages}u",
+            f"/* CMSIS-DSP compatible: arm_biquad_cascade_df1_init_{nf}(&S, {t.n_stages}, {p}_notch_coeffs, "
+            f"state, {t.post_shift}) */",
+            f"extern const {SAMPLE_C_TYPES[nf]} {p}_notch_coeffs[];",
+            f"extern const shk_biquad_{nf}_table_t {p}_notch_table;"]
 
 
 def render_tables_c(plan) -> str:
@@ -199,20 +211,37 @@ def render_tables_c(plan) -> str:
     if sh.n_rows > 1:
         table_bytes.append(f"sizeof({p}_schedule_thresholds)")
     if plan.notch is not None:
-        t = plan.notch.table
-        nf = t.fmt
-        per = 6 if nf == "q15" else 5
-        stage_lines = []
-        lay = t.layout()
-        for k in range(t.n_stages):
-            stage_lines += [f"    /* stage {k}: notch {plan.notch.freqs_hz[k]:.6g} Hz */",
-                            c_array(lay[k * per:(k + 1) * per], SAMPLE_C_TYPES[nf])]
-        out += [f"const {SAMPLE_C_TYPES[nf]} {p}_notch_coeffs[] = {{", *stage_lines, "};", "",
-                f"const shk_biquad_{nf}_table_t {p}_notch_table = {{",
-                f"    {M('NOTCH_STAGES')}, {M('NOTCH_POST_SHIFT')}, {p}_notch_coeffs", "};", ""]
+        out += _notch_arrays(plan)
         table_bytes.append(f"sizeof({p}_notch_coeffs)")
+    return "\n".join(out + _size_asserts(plan, table_bytes))
+
+
+def _values_per_stage(table) -> int:
+    """Stored values per biquad stage of the table's layout (Q15 6, Q31 5, see BiquadTable.layout)."""
+    return table.layout().size // table.n_stages
+
+
+def _notch_arrays(plan) -> list[str]:
+    """The notch coefficient array and its table (flash)."""
+    p, t = plan.prefix, plan.notch.table
+    nf, per = t.fmt, _values_per_stage(t)
+    stage_lines = []
+    lay = t.layout()
+    for k in range(t.n_stages):
+        stage_lines += [f"    /* stage {k}: notch {plan.notch.freqs_hz[k]:.6g} Hz */",
+                        c_array(lay[k * per:(k + 1) * per], SAMPLE_C_TYPES[nf])]
+    return [f"const {SAMPLE_C_TYPES[nf]} {p}_notch_coeffs[] = {{", *stage_lines, "};", "",
+            f"const shk_biquad_{nf}_table_t {p}_notch_table = {{",
+            f"    {c_m(plan, 'NOTCH_STAGES')}, {c_m(plan, 'NOTCH_POST_SHIFT')}, {p}_notch_coeffs", "};", ""]
+
+
+def _size_asserts(plan, table_bytes: list[str]) -> list[str]:
+    """Compile-time checks of every size the generator computed (ends with an empty line)."""
+    p, f, sh = plan.prefix, plan.fmt, plan.shaper
+    amp_t = WIDE_C_TYPES[f]
+    M = lambda n: c_m(plan, n)  # noqa: E731
     n = sh.n_rows * sh.stride
-    out += ["/* sizes the generator computed, checked by the compiler */",
+    out = ["/* sizes the generator computed, checked by the compiler */",
             f"SHK_STATIC_ASSERT(sizeof({p}_shaper_n_taps) == {M('ROWS')} * sizeof(uint32_t), {p}_n_taps_size);",
             f"SHK_STATIC_ASSERT(sizeof({p}_shaper_amplitudes) == {n}u * sizeof({amp_t}), {p}_amplitudes_size);",
             f"SHK_STATIC_ASSERT(sizeof({p}_shaper_delays) == {n}u * sizeof(uint32_t), {p}_delays_size);",
@@ -225,13 +254,13 @@ def render_tables_c(plan) -> str:
                    f"{p}_thresholds_size);")
     if plan.notch is not None:
         t = plan.notch.table
-        per = 6 if t.fmt == "q15" else 5
+        per = _values_per_stage(t)
         out += [f"SHK_STATIC_ASSERT(sizeof({p}_notch_coeffs) == {per}u * {M('NOTCH_STAGES')} * "
                 f"sizeof({SAMPLE_C_TYPES[t.fmt]}), {p}_notch_size);",
                 f"SHK_STATIC_ASSERT({M('NOTCH_STAGES')} <= SHK_BIQUAD_MAX_STAGES, {p}_stages_limit);",
                 f"SHK_STATIC_ASSERT({M('NOTCH_POST_SHIFT')} <= {MAX_POST_SHIFT[t.fmt]}u, {p}_post_shift_limit);"]
     out += [f"SHK_STATIC_ASSERT({' + '.join(table_bytes)} == {M('TABLE_BYTES')}, {p}_table_bytes);", ""]
-    return "\n".join(out)
+    return out
 
 
 def render_readme(plan) -> str:
