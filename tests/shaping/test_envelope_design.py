@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from stillhook.project import load_project, project_from_dict
-from stillhook.shaping.design_cache import DESIGN_CACHE, clear_design_caches
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.envelope_design import design_for_project, schedule_for_project, schedule_ratio
 from stillhook.shaping.lookup import schedule_rows
 from stillhook.shaping.residual_map import mode_shares, payload_participations, residual_ratio
@@ -81,10 +81,10 @@ def test_demo_schedule_rows_lookup_and_between_rows(demo_project, demo_design):
 
 def test_design_as_dict_is_json_and_deterministic(demo_project, demo_design):
     a = json.dumps(demo_design.as_dict(), allow_nan=False, sort_keys=False)
-    # empty the design caches so the second design is really computed again
-    clear_design_caches()
-    assert sum(DESIGN_CACHE.sizes().values()) == 0
-    b = json.dumps(design_for_project(demo_project).as_dict(), allow_nan=False)
+    # empty the design caches so the second design is really computed again (restored afterwards)
+    with DESIGN_CACHE.emptied():
+        assert sum(DESIGN_CACHE.sizes().values()) == 0
+        b = json.dumps(design_for_project(demo_project).as_dict(), allow_nan=False)
     assert a == b
     d = json.loads(a)
     assert d["impulses"][0] == {"time_s": 0.0, "amplitude": d["impulses"][0]["amplitude"], "delay_cycles": 0}

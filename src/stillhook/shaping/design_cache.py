@@ -15,13 +15,15 @@ shelf                     what                                                  
 ``project_design``        a project's design and schedule                       32
 ========================  ====================================================  =========
 
-:func:`clear_design_caches` empties every shelf, e.g. so a test or a benchmark really designs
-again. Cached values are shared: callers must not mutate them (shapers are frozen).
+:func:`clear_design_caches` empties every shelf (or the named ones), e.g. so a benchmark really
+designs again; ``with DESIGN_CACHE.emptied():`` designs afresh inside the block and puts the cache back
+after it (tests). Cached values are shared: callers must not mutate them (shapers are frozen).
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Hashable
+from collections.abc import Callable, Hashable, Iterator
+from contextlib import contextmanager
 from typing import Any
 
 __all__ = ["DESIGN_CACHE", "DesignCache", "clear_design_caches"]
@@ -61,6 +63,18 @@ class DesignCache:
     def sizes(self) -> dict[str, int]:
         """Entries held per shelf."""
         return {name: len(entries) for name, entries in self._shelves.items()}
+
+    @contextmanager
+    def emptied(self) -> Iterator[DesignCache]:
+        """Every shelf empty inside the ``with`` block and as it was after it (to design afresh once)."""
+        saved = {name: dict(entries) for name, entries in self._shelves.items()}
+        self.clear()
+        try:
+            yield self
+        finally:
+            for name, entries in saved.items():
+                self._shelves[name].clear()
+                self._shelves[name].update(entries)
 
     def clear(self, *shelves: str) -> None:
         """Empty the named shelves (every shelf when none is named)."""
