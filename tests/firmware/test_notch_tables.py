@@ -57,8 +57,9 @@ def test_dc_gain_is_exactly_one_and_the_null_stays_on_the_unit_circle(fmt):
 
 @pytest.mark.parametrize("fmt", ["q15", "q31"])
 def test_the_notch_design_reports_what_the_firmware_stores(fmt):
-    # one rounding analysis: the design's quantization figures are those of the stored integers
-    d = design_notches([0.2, 0.64], 0.005)
+    # one rounding analysis: the design's quantization figures are those of the stored integers (wide notches:
+    # the default band-wide notch at 0.2 Hz is lost in Q15, see test_escalation...)
+    d = design_notches([0.2, 0.64], 0.005, width_rule="tolerance")
     chk = quantize_notch(d.sos, fmt, 0.005, 0.01)
     reported = d.quantization[fmt]
     assert d.post_shift[fmt] == chk.table.post_shift
