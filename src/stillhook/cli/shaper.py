@@ -161,7 +161,8 @@ def _run_project(args) -> int:
         print(f"Worst residual payload sway with the schedule: {_pct(d.schedule_worst_ratio)} of unshaped")
     print("\nMeets the tolerance over the envelope (linear model, rope held): "
           + ("yes" if d.meets_tolerance else "NO"))
-    print(f"Checked on the nonlinear simulator {check.sentence()}.")
+    sentence = check.sentence()
+    print(sentence[:1].upper() + sentence[1:] + ".")
     if not check.holds:
         print("WARNING: the design misses its tolerance on the project's own move; treat the tolerance above as "
               "not met there (hoisting during travel shifts the sway frequencies).")
