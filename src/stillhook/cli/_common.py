@@ -64,6 +64,16 @@ def add_out_arguments(parser: argparse.ArgumentParser, *, required: bool, defaul
                         help="write into a folder stillhook wrote before, replacing only its own files")
 
 
+#: Nonlinear simulation speed for up-front estimates (drive cycles per second of wall time on one core,
+#: measured: ``stillhook simulate demo --distance-m 200``, 84 000 cycles with the settle window, about 3 s).
+SIM_CYCLES_PER_S = 25_000
+
+
+def estimate_s(n_runs: int, n_cycles: float) -> str:
+    """"about N s" for ``n_runs`` nonlinear simulations of ``n_cycles`` each (design time not included)."""
+    return f"about {max(1, round(n_runs * n_cycles / SIM_CYCLES_PER_S))} s of simulation"
+
+
 def say_progress(text: str) -> None:
     """One progress line on stderr, only on a terminal (pipes and files get nothing)."""
     if sys.stderr.isatty():

@@ -8,6 +8,7 @@ from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
     add_quantity_option,
+    estimate_s,
     format_table,
     load_project_arg,
     print_bullets,
@@ -55,7 +56,12 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.study.ranking import rank_designs, ranking_sentence
 
     project = load_project_arg(args.project)
-    say_progress("designing the filters and simulating each on the nonlinear model (tens of seconds)")
+    from stillhook.sim.dynamics import SETTLE_WINDOW_S
+    from stillhook.sim.profiles import project_move
+
+    cycles = len(project_move(project, args.distance_m)[0]) + SETTLE_WINDOW_S / project.drive["cycle_s"]
+    say_progress(f"designing the filters, then 7 nonlinear simulations of {cycles:.0f} drive cycles "
+                 f"({estimate_s(7, cycles)}, longer for the notch's ring-out)")
     result = compare_project(project, distance_m=args.distance_m, include_hoist=not args.no_hoist)
     ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in result.rows
                            if r.method != "unshaped"], result.tolerance)

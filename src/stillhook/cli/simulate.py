@@ -9,6 +9,7 @@ from stillhook.cli._common import (
     add_out_arguments,
     add_project_argument,
     add_quantity_option,
+    estimate_s,
     format_table,
     load_project_arg,
     print_json,
@@ -32,7 +33,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook.sim.dynamics import simulate
+    from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate
     from stillhook.sim.profiles import project_move
     from stillhook.sim.recording import sim_csv, sim_plot_png
 
@@ -43,7 +44,9 @@ def run(args: argparse.Namespace) -> int:
     project = load_project_arg(args.project)
     speed, hoist = project_move(project, args.distance_m)
     rig = project.envelope.nominal_rig
-    say_progress(f"simulating {len(speed)} drive cycles and the settle window on the nonlinear model")
+    cycles = len(speed) + SETTLE_WINDOW_S / project.drive["cycle_s"]
+    say_progress(f"simulating {cycles:.0f} drive cycles (with the settle window) on the nonlinear model, "
+                 f"{estimate_s(1, cycles)}")
     result = simulate(rig, speed, project.drive["cycle_s"], hoist_speed_m_s=hoist)
     metrics = result.metrics()
     if args.out is not None:
