@@ -54,7 +54,7 @@ def payload_participations(envelope: Envelope, rope_lengths_m, payload_masses_kg
         as the limit of a vanishing payload.
     """
     g = envelope.gravity_m_s2
-    L1 = np.asarray(rope_lengths_m, dtype=float)[:, None]
+    L1 = envelope.pendulum_length_m(np.asarray(rope_lengths_m, dtype=float)[:, None])
     m2 = np.asarray(payload_masses_kg, dtype=float)[None, :]
     L2 = envelope.rigging_length_m
     if not envelope.has_two_modes:

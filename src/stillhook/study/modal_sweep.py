@@ -105,18 +105,21 @@ class ModalBatch:
         if not (np.all(np.isfinite(m2)) and np.all(m2 >= 0)):
             raise ConfigError("payload masses must be finite and >= 0 (kg)")
         m1, L2, g = envelope.hook_mass_kg, envelope.rigging_length_m, envelope.gravity_m_s2
+        Lp = envelope.pendulum_length_m(L1)  # pendulum length of the encoder rope lengths L1
+        if not np.all(Lp > 0):
+            raise ConfigError("rope lengths plus the rope offset must be > 0 (m)")
         R = L1.size
         w = np.empty((R, 2))
         p = np.zeros((R, 2))
         q = np.zeros((R, 2))
         two = (m2 > 0.0) & (L2 > 0.0)
         # single pendulum: w^2 = g / L1, x1 = y; a massless payload hangs in line, x2 = (L1 + L2) / L1 x1
-        w_single = np.sqrt(g / L1)
+        w_single = np.sqrt(g / Lp)
         w[:, 0] = w[:, 1] = w_single
         q[:, 0] = 1.0
-        p[:, 0] = np.where(m2 == 0.0, (L1 + L2) / L1, 1.0)
+        p[:, 0] = np.where(m2 == 0.0, (Lp + L2) / Lp, 1.0)
         if np.any(two):
-            Lt, mt = L1[two], m2[two]
+            Lt, mt = Lp[two], m2[two]
             wt = mode_frequencies_rad_s(m1, mt, Lt, L2, g)  # (n, 2)
             w2 = wt * wt
             # mode shape from the second row of (K - w^2 M) phi = 0: phi = [1, w^2 L1 / (g - w^2 L2)]
