@@ -29,7 +29,7 @@ import numpy as np
 
 from stillhook.errors import InputFileError
 
-__all__ = ["LOG_COLUMNS", "MOTION_COLUMNS", "SIGNAL_COLUMNS", "SwayLog", "parse_log", "read_log"]
+__all__ = ["CLIPPED_SHARE", "LOG_COLUMNS", "MOTION_COLUMNS", "SIGNAL_COLUMNS", "SwayLog", "parse_log", "read_log"]
 
 #: Sway signals, in the order identification prefers them.
 SIGNAL_COLUMNS = ("hook_angle_rad", "hook_offset_m", "payload_angle_rad", "payload_offset_m")
@@ -37,6 +37,8 @@ SIGNAL_COLUMNS = ("hook_angle_rad", "hook_offset_m", "payload_angle_rad", "paylo
 MOTION_COLUMNS = ("trolley_speed_m_s", "trolley_position_m", "rope_length_m", "payload_mass_kg")
 #: Every column a log may carry.
 LOG_COLUMNS = ("time_s", *SIGNAL_COLUMNS, *MOTION_COLUMNS)
+#: Share of samples at an extreme (in 3 or more runs) that counts as a clipped sensor.
+CLIPPED_SHARE = 0.005
 #: Relative sample-interval spread above which a record is called jittery in its summary.
 JITTER_NOTE = 0.01
 
@@ -206,7 +208,7 @@ def _clipping(x: np.ndarray, col: str, name: str) -> list[str]:
     for label, extreme in (("maximum", x.max()), ("minimum", x.min())):
         at = x == extreme
         runs = int(np.count_nonzero(at[1:] & ~at[:-1]) + at[0])
-        if runs >= 3 and np.count_nonzero(at) >= 6:
+        if runs >= 3 and np.count_nonzero(at) >= max(6, CLIPPED_SHARE * x.size):
             out.append(f"{name}, column {col}: {np.count_nonzero(at)} samples in {runs} separate runs sit at the "
                        f"{label} {extreme:g} (flat tops): a clipped sensor biases the fit")
     return out
