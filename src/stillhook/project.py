@@ -333,6 +333,11 @@ def _parse(raw: bytes, label: str, name: str) -> Project:
         raise ConfigError(f"{label}: {exc}") from None
 
 
+def project_from_bytes(raw: bytes, file_name: str) -> Project:
+    """Parse and validate a project file's bytes; ``file_name`` labels errors and gives the project name."""
+    return _parse(raw, file_name, Path(file_name).stem)
+
+
 def demo_project_text() -> str:
     """The built-in demo project's TOML text (an invented scenario)."""
     return resources.files("stillhook").joinpath("data", DEMO_PROJECT_NAME).read_text(encoding="utf-8")

@@ -32,7 +32,11 @@ def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from stillhook.commission.session import (
-        calibrate_logs, parse_free, parse_mapping, parse_per_log, session_cautions,
+        calibrate_logs,
+        parse_free,
+        parse_mapping,
+        parse_per_log,
+        session_cautions,
     )
     from stillhook.errors import InputFileError
     from stillhook.outputs import write_files

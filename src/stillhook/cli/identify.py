@@ -38,7 +38,11 @@ def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from stillhook.commission.session import (
-        identify_json, identify_logs, parse_mapping, segment_figure_data, session_cautions,
+        identify_json,
+        identify_logs,
+        parse_mapping,
+        segment_figure_data,
+        session_cautions,
     )
     from stillhook.outputs import check_out_dir, to_json, write_files
     from stillhook.project import load_project_or_demo

@@ -16,7 +16,7 @@ from stillhook.cautions import CAUTIONS
 from stillhook.checks import finite_number
 from stillhook.commission.calibrate import PARAMETERS, calibrate, observations_from_segments
 from stillhook.commission.identify import identify_log
-from stillhook.commission.logs import LOG_COLUMNS, read_log
+from stillhook.commission.logs import LOG_COLUMNS, SwayLog, read_log
 from stillhook.commission.project_file import CALIBRATION_CAUTION, calibrated_project_text
 from stillhook.errors import ConfigError
 
@@ -26,7 +26,7 @@ __all__ = [
 ]
 
 #: Points per series at most in a fit figure (the record is thinned evenly for drawing only).
-FIGURE_POINTS = 3000
+FIGURE_POINTS = 1500
 
 
 @dataclass
@@ -87,10 +87,11 @@ def parse_free(text: str | None) -> tuple[str, ...]:
 
 def identify_logs(paths, *, envelope=None, window_s=None, columns=None, scales=None, rope_lengths=None,
                   payload_masses=None) -> list[LogResult]:
-    """Read and identify every log (``rope_lengths``/``payload_masses``: ``{file name: value}``)."""
+    """Read and identify every log (paths or SwayLog objects; ``rope_lengths``/``payload_masses``: ``{file name:
+    value}``)."""
     out = []
     for path in paths:
-        log = read_log(path, columns, scales)
+        log = path if isinstance(path, SwayLog) else read_log(path, columns, scales)
         notes = []
         m = (payload_masses or {}).get(log.name)
         if "payload_mass_kg" not in log.columns and m is None and envelope is not None:
