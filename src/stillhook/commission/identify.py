@@ -56,7 +56,7 @@ MIN_AMPLITUDE_SHARE = 0.02
 #: A mode whose amplitude is under this many standard deviations is not observable.
 MIN_AMPLITUDE_SIGMAS = 10.0
 #: Samples given to the matrix pencil at most (the refinement uses all of them).
-MAX_PENCIL_SAMPLES = 3000
+MAX_PENCIL_SAMPLES = 2000
 
 
 @dataclass(frozen=True)

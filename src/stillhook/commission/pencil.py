@@ -30,7 +30,7 @@ __all__ = ["MAX_ORDER", "MAX_PENCIL", "NOISE_FACTOR", "PencilResult", "matrix_pe
 #: Largest model order (exponentials, counting each conjugate pair twice): two modes, an offset, a drift, spares.
 MAX_ORDER = 8
 #: Largest pencil parameter L (columns - 1 of the Hankel matrix).
-MAX_PENCIL = 300
+MAX_PENCIL = 100
 #: A singular value counts as signal when it exceeds this many times the noise floor.
 NOISE_FACTOR = 3.0
 
@@ -66,8 +66,14 @@ def matrix_pencil(y, dt_s: float, *, max_order: int = MAX_ORDER) -> PencilResult
     y = np.asarray(y, dtype=float)
     N = y.size
     L = int(min(MAX_PENCIL, max(2, N // 3)))
-    Y = np.lib.stride_tricks.sliding_window_view(y, L + 1)  # (N - L, L + 1), Y[i, j] = y[i + j]
-    _, sv, Vt = np.linalg.svd(Y, full_matrices=False)
+    Y = np.ascontiguousarray(np.lib.stride_tricks.sliding_window_view(y, L + 1))  # Y[i, j] = y[i + j]
+    # right singular vectors and singular values of Y from the eigenproblem of Y^T Y ((L+1) x (L+1)): a few
+    # times faster than the SVD of the tall Y; it resolves singular values down to ~1e-8 of the largest,
+    # far below any sensor's noise floor
+    lam, V_all = np.linalg.eigh(Y.T @ Y)
+    order = np.argsort(lam)[::-1]
+    sv = np.sqrt(np.maximum(lam[order], 0.0))
+    Vt = V_all[:, order].T
     floor_index = min(max_order + 2, sv.size - 1)
     floor = max(sv[floor_index], 1e-12 * sv[0])
     M = int(np.count_nonzero(sv[:max_order] > NOISE_FACTOR * floor))
