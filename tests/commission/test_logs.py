@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 
 from stillhook.cli import main
-from stillhook.commission.logs import parse_log
+from stillhook.commission.identify import identify_log
+from stillhook.commission.logs import parse_log, read_log
 from stillhook.errors import InputFileError
 
 
@@ -74,8 +75,6 @@ def test_clipped_sensor_and_moving_trolley_in_a_forced_window_are_warned():
     speed = np.where((t > 10) & (t < 12), 0.2, 0.0)
     log = parse_log(_csv({"time_s": t, "hook_angle_rad": clipped, "trolley_speed_m_s": speed}), "c.csv")
     assert any("flat tops" in w for w in log.warnings)
-    from stillhook.commission.identify import identify_log
-
     identify_log(log, window_s=(5.0, 39.0))
     assert any("trolley moves inside the window 5-39 s" in w for w in log.warnings)
 
@@ -87,7 +86,5 @@ def test_a_decaying_quantized_sway_is_not_called_clipped():
 
 
 def test_a_log_file_that_is_missing_is_one_line(tmp_path):
-    from stillhook.commission.logs import read_log
-
     with pytest.raises(InputFileError, match="not found"):
         read_log(tmp_path / "nope.csv")
