@@ -135,7 +135,8 @@ def test_a_mode_the_record_does_not_show_is_said_to_be_unobservable(demo_project
     f_low = env.rig(5.0, 150.0).modes()[0].frequency_hz
     t = np.arange(0, 40, 0.01)
     y = 0.02 * np.exp(-0.01 * t) * np.cos(2 * np.pi * f_low * t) + np.random.default_rng(1).normal(0, 1e-4, t.size)
-    text = "time_s,hook_angle_rad,rope_length_m\n" + "\n".join(f"{a:.2f},{b:.6f},5.0" for a, b in zip(t, y, strict=True))
+    rows = "\n".join(f"{a:.2f},{b:.6f},5.0" for a, b in zip(t, y, strict=True))
+    text = "time_s,hook_angle_rad,rope_length_m\n" + rows
     (seg,) = identify_log(parse_log(text.encode(), "one.csv"), envelope=env)
     assert seg.mode_numbers == [1]
     assert any("mode 2" in n and "not observable" in n for n in seg.notes)
