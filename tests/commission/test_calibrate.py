@@ -150,3 +150,18 @@ def test_identify_needs_the_logs_rope_length_for_calibration(tmp_path, demo_proj
     assert r.segments[0].rope_length_m is None
     with pytest.raises(ConfigError, match="--rope-length-m norope.csv=METRES"):
         observations_from_segments("norope.csv", r.segments)
+
+
+def test_simulate_out_writes_a_log_that_identify_reads(tmp_path, capsys, minimal_project_file):
+    # the loop on simulated data: the nonlinear simulator's record identifies to the linear model's modes
+    # (within the large-angle effect, about amplitude^2 / 16 of frequency; common practice for the pendulum)
+    out = tmp_path / "sim"
+    assert main(["simulate", str(minimal_project_file), "--out", str(out)]) == 0
+    capsys.readouterr()
+    assert main(["identify", str(out / "sim.csv"), "--project", str(minimal_project_file), "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    project = project_from_dict(tomllib.loads(minimal_project_file.read_text()))
+    model = [m.frequency_hz for m in project.envelope.nominal_rig.modes()]
+    (seg,) = data["segments"]
+    assert seg["rope_length_m"] == pytest.approx(project.envelope.nominal_rope_length_m)
+    np.testing.assert_allclose([m["frequency_hz"] for m in seg["modes"]], model, rtol=2e-3)

@@ -73,7 +73,8 @@ def run(args: argparse.Namespace) -> int:
 
 def _print(result, data, cautions, out) -> None:
     log = result.log
-    print(f"{log.name}: {log.time_s.size} samples at {log.sample_rate_hz:.4g} Hz, signals {', '.join(log.signals)}")
+    print(f"{log.name}: {log.time_s.size} samples at {log.sample_rate_hz:.4g} Hz (interval spread "
+          f"{100 * log.jitter:.2g} % of the median), signals {', '.join(log.signals)}")
     rows = []
     for n, seg in enumerate(result.segments, start=1):
         for k, m in enumerate(seg.modes):

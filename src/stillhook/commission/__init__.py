@@ -13,6 +13,16 @@ _EXPORTS = {
     "fit_damped_sinusoids": "stillhook.commission.damped_fit",
     "identify_log": "stillhook.commission.identify",
     "identify_record": "stillhook.commission.identify",
+    "Segment": "stillhook.commission.identify",
+    "IdentifiedMode": "stillhook.commission.identify",
+    "Calibration": "stillhook.commission.calibrate",
+    "Observation": "stillhook.commission.calibrate",
+    "calibrate": "stillhook.commission.calibrate",
+    "calibrated_project_text": "stillhook.commission.project_file",
+    "calibrate_logs": "stillhook.commission.session",
+    "identify_logs": "stillhook.commission.session",
+    "TRUE_CRANE": "stillhook.commission.demo_logs",
+    "demo_log_bytes": "stillhook.commission.demo_logs",
 }
 
 __all__ = sorted(_EXPORTS)

@@ -157,6 +157,8 @@ def _structurally_free(free: list, nominal, g, observations, notes: list) -> lis
         free.remove("rope_offset_m")
         notes.append(f"rope_offset_m fixed at the project's {nominal['rope_offset_m']:g} m: every log is at one "
                      f"rope length ({lengths[0]:g} m), where an offset cannot be told from the length itself")
+    modes = sorted({o.mode for o in observations})
+    only = f" (only mode {modes[0]} was identified)" if len(modes) == 1 else ""
     while free:
         residual, _ = _problem(nominal, g, observations, free)
         J = _jacobian(residual, np.array([nominal[k] for k in free]))
@@ -169,7 +171,7 @@ def _structurally_free(free: list, nominal, g, observations, notes: list) -> lis
         others = [free[i] for i in np.argsort(-null) if i != k and null[i] > 0.2]
         why = (f"{J.shape[0]} identified frequencies cannot fix {len(free)} parameters" if J.shape[0] < len(free)
                else "its effect on the frequencies is collinear with that of " + (", ".join(others) or "the others"))
-        notes.append(f"{free[k]} fixed at the project's {nominal[free[k]]:g}: {why}")
+        notes.append(f"{free[k]} fixed at the project's {nominal[free[k]]:g}: {why}{only}")
         free.pop(k)
     return free
 

@@ -125,15 +125,14 @@ def free_sway_windows(log: SwayLog) -> list[tuple[int, int]]:
 
 
 def _rope_moving(t: np.ndarray, L: np.ndarray) -> np.ndarray:
-    """True where the rope length changes by more than ROPE_STEADY_M within ROPE_WINDOW_S around a sample."""
+    """True within ROPE_WINDOW_S of any sample where the rope length changes by more than ROPE_STEADY_M over
+    the next ROPE_WINDOW_S."""
     ahead = np.searchsorted(t, t + ROPE_WINDOW_S, side="right") - 1
-    change = np.abs(L[ahead] - L)
-    moving = change > ROPE_STEADY_M
-    behind = np.searchsorted(t, t - ROPE_WINDOW_S, side="left")
-    out = moving.copy()  # mark the whole window that saw the change
-    for i in np.flatnonzero(moving):
-        out[behind[i]: ahead[i] + 1] = True
-    return out
+    moving = np.abs(L[ahead] - L) > ROPE_STEADY_M
+    count = np.concatenate([[0], np.cumsum(moving)])  # moving samples before each index
+    lo = np.searchsorted(t, t - ROPE_WINDOW_S, side="left")
+    hi = np.searchsorted(t, t + ROPE_WINDOW_S, side="right")
+    return count[hi] - count[lo] > 0
 
 
 def identify_record(t_s, y, band_hz=DEFAULT_BAND_HZ, *, max_modes: int = 2):

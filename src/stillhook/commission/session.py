@@ -106,7 +106,7 @@ def identify_logs(paths, *, envelope=None, window_s=None, columns=None, scales=N
 def identify_json(result: LogResult) -> dict:
     """``{"segments": [...]}`` as the issue gives it, with the log, its notes, warnings and the cautions."""
     log = result.log
-    return {"log": log.name, "sha256": log.sha256, "sample_rate_hz": log.sample_rate_hz,
+    return {"log": log.name, "sha256": log.sha256, "sample_rate_hz": log.sample_rate_hz, "jitter": log.jitter,
             "segments": [s.as_dict() for s in result.segments], "notes": list(result.notes),
             "warnings": list(log.warnings), "cautions": session_cautions()}
 
