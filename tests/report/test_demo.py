@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import shutil
+import tomllib
 from html.parser import HTMLParser
 from pathlib import Path
 
@@ -158,3 +159,10 @@ def test_demo_commissioning_shows_the_calibrated_design_holds_where_the_nominal_
     html = (out / "report.html").read_text()
     assert "Commissioning: the rig calibrated against sway logs" in html and "re-verify on the crane" in html
     assert "0 commission 3 logs identified" in text
+
+
+def test_demo_firmware_states_the_rope_offset_it_was_designed_with(demo_out):
+    out, _, _ = demo_out
+    cal = tomllib.loads((out / "commissioning/demo_project_calibrated.toml").read_text())
+    header = (out / "firmware/sway_tables.h").read_text()
+    assert f"encoder rope + {cal['rig']['rope_offset_m']:g} m" in header
