@@ -165,3 +165,17 @@ def test_simulate_out_writes_a_log_that_identify_reads(tmp_path, capsys, minimal
     (seg,) = data["segments"]
     assert seg["rope_length_m"] == pytest.approx(project.envelope.nominal_rope_length_m)
     np.testing.assert_allclose([m["frequency_hz"] for m in seg["modes"]], model, rtol=2e-3)
+
+
+def test_a_parameter_without_effect_is_fixed_and_damping_alone_can_be_fitted(demo_project):
+    # with a vanishing payload the frequencies are sqrt(g / L1) and sqrt(g / L2) (Kibble & Berkshire 2004, the
+    # double pendulum's limit): the hook mass does not enter them
+    env = replace(demo_project.envelope, **TRUE)
+    pts = [(L, 1e-9, k) for L in (2.0, 5.0, 8.5) for k in (1, 2)]
+    cal = calibrate(demo_project.envelope, _obs(env, pts))
+    assert not cal.free["hook_mass_kg"] and any("does not change the frequencies" in n for n in cal.notes)
+    assert cal.values["rigging_length_m"] == pytest.approx(TRUE["rigging_length_m"], rel=1e-6)
+    only = calibrate(demo_project.envelope, _obs(env, pts), free=("damping_ratio",))
+    assert only.free == {"hook_mass_kg": False, "rigging_length_m": False, "rope_offset_m": False,
+                         "damping_ratio": True}
+    assert only.values["damping_ratio"] == pytest.approx(0.005)

@@ -162,7 +162,14 @@ def _structurally_free(free: list, nominal, g, observations, notes: list) -> lis
     while free:
         residual, _ = _problem(nominal, g, observations, free)
         J = _jacobian(residual, np.array([nominal[k] for k in free]))
-        Jn = J / np.maximum(np.linalg.norm(J, axis=0), 1e-300)
+        norms = np.linalg.norm(J, axis=0)
+        if norms.min() <= 1e-9 * norms.max():
+            k = int(np.argmin(norms))
+            notes.append(f"{free[k]} fixed at the project's {nominal[free[k]]:g}: it does not change the "
+                         f"frequencies of these logs")
+            free.pop(k)
+            continue
+        Jn = J / norms
         _, sv, Vt = np.linalg.svd(Jn, full_matrices=True)
         if J.shape[0] >= len(free) and sv[-1] >= COLLINEAR_RTOL * sv[0]:
             break
