@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pytest
 
@@ -88,3 +90,19 @@ def test_a_decaying_quantized_sway_is_not_called_clipped():
 def test_a_log_file_that_is_missing_is_one_line(tmp_path):
     with pytest.raises(InputFileError, match="not found"):
         read_log(tmp_path / "nope.csv")
+
+
+def test_cli_maps_scales_and_windows_a_camera_log(tmp_path, capsys):
+    t, y = _sway(n=6000, f=0.3)
+    p = tmp_path / "cam.csv"
+    p.write_bytes(_csv({"time_s": t, "cam_x": 1000 * y}))
+    argv = ["identify", str(p), "--column", "payload_offset_m=cam_x", "--scale", "payload_offset_m=0.001",
+            "--window", "10", "50", "--json"]
+    assert main(argv) == 0
+    (seg,) = json.loads(capsys.readouterr().out)["segments"]
+    assert seg["start_s"] == pytest.approx(10.0) and seg["end_s"] == pytest.approx(50.0)
+    (mode,) = seg["modes"]
+    assert mode["signal"] == "payload_offset_m" and mode["frequency_hz"] == pytest.approx(0.3, rel=1e-6)
+    assert mode["amplitude"] == pytest.approx(0.02 * np.exp(-0.004 * 2 * np.pi * 0.3 * 10), rel=1e-3)
+    assert main(["identify", str(p), "--scale", "payload_offset_m=0"]) == 2
+    assert "a scale of 0" in capsys.readouterr().err
