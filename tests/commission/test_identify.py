@@ -52,8 +52,10 @@ def test_the_bound_we_test_against_matches_kays_closed_form_for_one_tone():
 
 
 def test_monte_carlo_frequency_sd_is_within_2x_of_the_cramer_rao_bound_at_20_db():
-    # Rife & Boorstyn, IEEE Trans. IT 20(5):591-598, 1974 (single tone); bound for the exact damped model as
-    # derived above (Kay 1993, eq. 3.33). SNR A^2 / (2 sd^2) = 100 (20 dB) at the start of the record.
+    # Rife & Boorstyn, "Single-tone parameter estimation from discrete-time observations", IEEE Trans. IT
+    # 20(5):591-598, 1974 (single tone); for damped sinusoids Yao & Pandit, IEEE Trans. SP 43(4), 1995 (from
+    # memory). The bound used is derived above for the exact damped model with offset (Kay 1993, eq. 3.33).
+    # SNR A^2 / (2 sd^2) = 100 (20 dB) at the start of the record.
     N, dt, f, zeta, A = 1000, 0.1, 0.25, 0.005, 1.0
     sd = A / math.sqrt(2 * 100)
     t = np.arange(N) * dt

@@ -222,7 +222,7 @@ def _mode_numbers(modes: list[IdentifiedMode], expected: list[float] | None) -> 
     return [1 + int(np.argmin([abs(math.log(m.frequency_hz / f)) for f in expected])) for m in modes]
 
 
-def _segment(log, i, j, envelope, band, rope_length_m, payload_mass_kg) -> Segment | None:
+def _segment(log, i, j, band, rope_length_m, payload_mass_kg) -> Segment | None:
     t = log.time_s[i:j]
     L = _mean_column(log, "rope_length_m", i, j, rope_length_m)
     m = _mean_column(log, "payload_mass_kg", i, j, payload_mass_kg)
@@ -273,7 +273,7 @@ def identify_log(log: SwayLog, *, envelope=None, window_s=None, rope_length_m: f
         if j - i < 8 or (need_s is not None and t1 - t0 < need_s):
             short.append((t1 - t0, t0, t1, need_s, expected))
             continue
-        seg = _segment(log, i, j, envelope, _band(envelope, expected, log.sample_rate_hz), L, m)
+        seg = _segment(log, i, j, _band(envelope, expected, log.sample_rate_hz), L, m)
         if seg is None:
             continue
         need_s = MIN_PERIODS / seg.modes[0].frequency_hz
