@@ -53,6 +53,8 @@ def test_recovers_the_simulators_true_parameters_within_the_reported_uncertainty
 def test_the_demo_logs_calibrate_to_the_invented_true_crane(demo_project):
     logs = [parse_log(raw, name) for name, raw in demo_log_bytes().items()]
     cal, _, _ = calibrate_logs(demo_project, demo_project_text(), logs)
+    assert sorted((o.rope_length_m, o.mode) for o in cal.observations) == [(L, k) for L in (2.0, 5.0, 8.5)
+                                                                            for k in (1, 2)]
     for key, true in TRUE_CRANE.items():
         assert cal.values[key] == pytest.approx(true, rel=0.01), key
 

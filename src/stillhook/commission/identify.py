@@ -47,7 +47,7 @@ MIN_PERIODS = 3.0
 #: Frequency band searched without a project (Hz): 0.02 Hz is a 600 m pendulum, 5 Hz a 1 cm one.
 DEFAULT_BAND_HZ = (0.02, 5.0)
 #: Decimated samples per period of the band's top frequency.
-SAMPLES_PER_PERIOD = 12
+SAMPLES_PER_PERIOD = 8
 #: Poles with damping ratio outside [MIN_DAMPING, MAX_DAMPING] are spurious (noise, drift).
 MIN_DAMPING = -0.005
 MAX_DAMPING = 0.3

@@ -30,7 +30,7 @@ __all__ = ["MAX_ORDER", "MAX_PENCIL", "NOISE_FACTOR", "PencilResult", "matrix_pe
 #: Largest model order (exponentials, counting each conjugate pair twice): two modes, an offset, a drift, spares.
 MAX_ORDER = 8
 #: Largest pencil parameter L (columns - 1 of the Hankel matrix).
-MAX_PENCIL = 100
+MAX_PENCIL = 250
 #: A singular value counts as signal when it exceeds this many times the noise floor.
 NOISE_FACTOR = 3.0
 
