@@ -136,11 +136,25 @@ LIMITS: dict[str, Limit] = {
     "grid_points": Limit("points", 1, 201, integer=True, reason="rigs per envelope axis; 201 x 201 at most"),
     "random_rigs": Limit("rigs", 1, 40401, integer=True, reason="as many rigs as the largest grid"),
     "seed": Limit("", 0, 2**32 - 1, integer=True, reason="random seed"),
+    "window_s": Limit("s", 0.0, 1e6, reason="a time in the log, from its start"),
     "settle_s": Limit("s", 0.0, 600.0, lo_ok=False, reason="window after the move in which sway is measured"),
 }
-LIMITS["nominal_rope_length_m"] = LIMITS["rope_length_m"]
-LIMITS["nominal_payload_mass_kg"] = LIMITS["payload_mass_kg"]
-LIMITS["hoist_to_m"] = LIMITS["rope_length_m"]
+LIMITS.update({
+    # commissioning: pendulum length = encoder rope length + rope_offset_m; [calibration] written by calibrate
+    "rope_offset_m": Limit("m", -100.0, 100.0, reason="sheaves and hook block geometry add or remove at most 100 m"),
+    "hook_mass_sd_kg": Limit("kg", 0.0, 5e5, reason="standard deviation of a fitted hook mass"),
+    "rigging_length_sd_m": Limit("m", 0.0, 100.0, reason="standard deviation of a fitted rigging length"),
+    "rope_offset_sd_m": Limit("m", 0.0, 100.0, reason="standard deviation of a fitted rope offset"),
+    "damping_ratio_sd": Limit("", 0.0, 1.0, reason="standard deviation of a fitted damping ratio"),
+    "mode": Limit("", 1.0, 2.0, reason="mode number: 1 the low mode, 2 the high mode"),
+    "measured_hz": Limit("Hz", 0.0, 1000.0, lo_ok=False, reason="an identified sway frequency"),
+    "measured_sd_hz": Limit("Hz", 0.0, 1000.0, reason="standard deviation of an identified frequency"),
+})
+for _alias, _quantity in (("nominal_rope_length_m", "rope_length_m"), ("nominal_payload_mass_kg", "payload_mass_kg"),
+                          ("hoist_to_m", "rope_length_m"), ("nominal_hook_mass_kg", "hook_mass_kg"),
+                          ("nominal_rigging_length_m", "rigging_length_m"), ("nominal_rope_offset_m", "rope_offset_m"),
+                          ("nominal_damping_ratio", "damping_ratio")):
+    LIMITS[_alias] = LIMITS[_quantity]
 
 #: Drive cycles of one move command at most: 400 000 is 2000 s at a 5 ms cycle, about 15 s of nonlinear
 #: simulation on one core.

@@ -24,7 +24,7 @@ from pathlib import Path
 
 from stillhook.errors import InputFileError
 
-__all__ = ["MARKER", "check_out_dir", "to_json", "write_files"]
+__all__ = ["MARKER", "check_out_dir", "check_out_file", "to_json", "write_file", "write_files"]
 
 #: Marker file stillhook puts in every folder it writes: the list of files it wrote there.
 MARKER = ".stillhook-output.json"
@@ -120,6 +120,36 @@ def _probe(out: Path) -> None:
                 p.rmdir()
             except OSError:
                 pass
+
+
+def check_out_file(out_file, *, force: bool = False) -> Path:
+    """Refuse, before any work, an output file that exists (unless ``force``) or whose folder cannot be written."""
+    out = Path(out_file)
+    if out.is_dir():
+        raise InputFileError(f"output file {str(out)!r} is a folder; allowed: a file name")
+    if out.exists() and not force:
+        raise InputFileError(f"output file {str(out)!r} exists; give --force to replace it")
+    _probe(out.absolute().parent)
+    return out
+
+
+def write_file(out_file, content: str | bytes, *, force: bool = False) -> Path:
+    """Write one file all or nothing: a temporary file beside it, renamed over it only when complete."""
+    out = check_out_file(out_file, force=force)
+    data = content.encode("utf-8") if isinstance(content, str) else content
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".stillhook-{out.name}-", dir=out.absolute().parent)
+        try:
+            with os.fdopen(fd, "wb") as f:
+                f.write(data)
+            os.chmod(tmp, 0o666 & ~_umask())
+            os.replace(tmp, out)
+        finally:
+            if os.path.exists(tmp):
+                os.unlink(tmp)
+    except OSError as exc:
+        raise InputFileError(f"output file {str(out)!r} cannot be written: {_reason(exc)}") from None
+    return out
 
 
 def _stage(tmp: Path, files: dict[str, str | bytes]) -> None:

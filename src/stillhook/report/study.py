@@ -22,6 +22,7 @@ from stillhook.errors import ConfigError, StillhookError
 from stillhook.firmware.plan import plan_for_project, render_files
 from stillhook.notch.design import notch_for_project
 from stillhook.report import figure_data as plot_data
+from stillhook.report.commissioning_section import commissioning_data
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.study.compare import compare_project
 from stillhook.study.move_check import check_design_on_move
@@ -53,6 +54,7 @@ class Study:
     emit_plan: object | None = None
     firmware_files: dict | None = None
     selftest: dict | None = None
+    commissioning: dict | None = None
     figures: dict = field(default_factory=dict)
     problems: dict = field(default_factory=dict)
     timings_s: dict = field(default_factory=dict)
@@ -105,6 +107,7 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     study.timings_s["design"] = time.perf_counter() - t0
     say("design on the project's move")
     study.move_check = _step(study, "move check", lambda: check_design_on_move(project, study.design.shaper))
+    study.commissioning = _step(study, "commissioning", lambda: commissioning_data(project, study.design))
     say("notch")
     study.notch = _step(study, "notch", lambda: notch_for_project(project))
     say("comparison")
@@ -180,6 +183,7 @@ def report_json(study: Study) -> dict:
         "sweep": _sweep_json(study.sweep),
         "firmware": firmware_summary(study),
         "selftest": study.selftest,
+        "commissioning": study.commissioning,
         "problems": dict(sorted(study.problems.items())),
         "figures": study.figures,
         "cautions": list(CAUTIONS),
