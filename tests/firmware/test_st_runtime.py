@@ -1,0 +1,174 @@
+"""The emitted Structured Text, compiled by a real IEC 61131-3 compiler (matiec's iec2c) and run, is
+bit-exact with the Python integer reference: every output, row, status and clip count, for Q15 and
+Q31, with and without the notch, on the C self-test's vectors and on row switches at every cycle.
+
+The translated C runs under UBSan without recovery, so a signed overflow in any ST operation fails
+the run (the ST claims none can happen by construction)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.signal import iirnotch
+
+from stillhook.firmware.plan import plan_for_project
+from stillhook.firmware.qformat import BiquadModel, sample_limits
+from stillhook.firmware.render_st import render_st_files, st_blocks, st_file_names
+from stillhook.firmware.shaper_model import ShaperModel
+from stillhook.firmware.st_shaper import STATUS_VALUES
+from stillhook.firmware.vectors import SEGMENT_CYCLES, selftest_vectors, stress_signal
+from tests.firmware.st_tools import build_harness, run_fb
+from tests.firmware.test_plan import two_mode_schedule
+
+
+def _plans(project):
+    b1, a1 = iirnotch(4.0, 2.0, fs=200.0)  # a Q15-friendly notch pair (as tests/firmware/test_c_runtime.py)
+    b2, a2 = iirnotch(9.0, 3.0, fs=200.0)
+    return {
+        "sa": plan_for_project(project, fmt="q15", prefix="sa", include_notch=False),
+        "sb": plan_for_project(project, schedule=two_mode_schedule(project, 9), fmt="q15", prefix="sb",
+                               notch_sos=np.array([[*b1, *a1], [*b2, *a2]])),
+        "sc": plan_for_project(project, schedule=two_mode_schedule(project, 17, negative_rows=(3, 4)), fmt="q31",
+                               prefix="sc", include_notch=False),
+        "sd": plan_for_project(project, fmt="q31", prefix="sd", include_notch=True),
+        "se": plan_for_project(project, schedule=two_mode_schedule(project, 1), fmt="q15", prefix="se",
+                               include_notch=False),
+    }
+
+
+def _corrupt(st: str) -> str:
+    """The same ST with the first shaper amplitude one unit larger (row 0 no longer sums to 2^F)."""
+    head, tail = st.split("AMPLITUDE : ARRAY", 1)
+    first_line_end = tail.index("\n") + 1
+    values = tail[first_line_end:]
+    n = values.index(",")
+    first = int(values[:n].strip())
+    return head + "AMPLITUDE : ARRAY" + tail[:first_line_end] + values[:n].replace(str(first), str(first + 1)) + \
+        values[n:]
+
+
+@pytest.fixture(scope="module")
+def st(tmp_path_factory, demo_project):
+    """Every plan's ST in one file (prefixes keep the names apart), plus a corrupted copy of 'sa' renamed
+    'bad'; compiled once. Returns (plans, blocks by prefix, harness, work folder)."""
+    work = tmp_path_factory.mktemp("st_runtime")
+    plans = _plans(demo_project)
+    plans["bad"] = plan_for_project(demo_project, fmt="q15", prefix="bad", include_notch=False)
+    texts = []
+    for p, plan in plans.items():
+        text = render_st_files(plan)[st_file_names(plan)["st"]]
+        texts.append(_corrupt(text) if p == "bad" else text)
+    (work / "all.st").write_text("\n".join(texts))
+    blocks = {p: {b.key: b for b in st_blocks(plan)} for p, plan in plans.items()}
+    prog = build_harness(work / "all.st", [b for bs in blocks.values() for b in bs.values()], work)
+    return plans, blocks, prog, work
+
+
+def _reference(plan, x, lengths):
+    """(speed_out, row, status, clipped) per cycle from the Python reference, one cycle at a time."""
+    rows, status = plan.schedule.lookup(lengths)
+    model = ShaperModel(plan.shaper)
+    y, clipped = np.empty(x.size, dtype=np.int64), np.empty(x.size, dtype=np.int64)
+    for n in range(x.size):
+        y[n] = model.run(x[n:n + 1], rows[n:n + 1])[0]
+        clipped[n] = model.clipped
+    return np.column_stack([y, rows, status, clipped])
+
+
+@pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd", "se"])
+def test_shaper_fb_bit_exact_on_the_c_selftest_vectors(st, prefix):
+    plans, blocks, prog, work = st
+    plan = plans[prefix]
+    v = selftest_vectors(plan)  # extremes, every threshold from both sides, outside the envelope
+    lengths = np.repeat(v.segment_lengths, SEGMENT_CYCLES)
+    got = run_fb(prog, blocks[prefix]["shaper"], np.column_stack([v.shaper_in, lengths, 0 * lengths]), work)
+    assert np.array_equal(got[:, 0], v.shaper_out)
+    assert np.array_equal(got, _reference(plan, v.shaper_in, lengths))
+    assert set(got[:, 2]) == {STATUS_VALUES["OK"], STATUS_VALUES["CLAMPED_LOW"], STATUS_VALUES["CLAMPED_HIGH"]}
+
+
+@pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd"])
+def test_shaper_fb_bit_exact_with_a_row_switch_at_every_cycle(st, prefix):
+    plans, blocks, prog, work = st
+    plan = plans[prefix]
+    s = plan.schedule
+    rng = np.random.default_rng(7)
+    n = 3 * plan.shaper.ring_len
+    lengths = rng.integers(max(0, s.length_min - 50), s.length_max + 50, n, endpoint=True)
+    lengths[::97] = 2**32 - 1  # the largest UDINT, far outside
+    x = stress_signal(n, plan.fmt, rng)
+    got = run_fb(prog, blocks[prefix]["shaper"], np.column_stack([x, lengths, 0 * x]), work)
+    ref = _reference(plan, x, lengths)
+    assert np.array_equal(got, ref)
+    assert len(set(ref[:, 1])) == plan.shaper.n_rows  # every row was used
+
+
+def test_negative_rows_saturate_and_the_fb_counts_them(st):
+    """UM-ZV rows (negative impulses) with full-scale alternating input must clip: the count matches."""
+    plans, blocks, prog, work = st
+    plan = plans["sc"]
+    lo, hi = sample_limits(plan.fmt)
+    n = 2 * plan.shaper.ring_len
+    x = np.where((np.arange(n) // 3) % 2 == 0, hi, lo)
+    lengths = np.full(n, plan.schedule.thresholds[3])  # row 4: UM-ZV
+    got = run_fb(prog, blocks["sc"]["shaper"], np.column_stack([x, lengths, 0 * x]), work)
+    ref = _reference(plan, x, lengths)
+    assert np.array_equal(got, ref) and ref[-1, 3] > 0
+
+
+@pytest.mark.parametrize("prefix", ["sb", "sd"])
+def test_reset_empties_the_ring_and_holds_the_output(st, prefix):
+    plans, blocks, prog, work = st
+    plan = plans[prefix]
+    rng = np.random.default_rng(3)
+    n1, n_hold, n2 = 200, 3, 300
+    lo, hi = sample_limits(plan.fmt)
+    x = rng.integers(lo, hi, n1 + n_hold + n2, endpoint=True)
+    L = np.full(x.size, plan.schedule.length_max)
+    reset = np.r_[np.zeros(n1), np.ones(n_hold), np.zeros(n2)].astype(np.int64)
+    got = run_fb(prog, blocks[prefix]["shaper"], np.column_stack([x, L, reset]), work)
+    before = _reference(plan, x[:n1], L[:n1])
+    after = _reference(plan, x[n1 + n_hold:], L[n1 + n_hold:])  # a fresh instance
+    assert np.array_equal(got[:n1], before)
+    assert np.all(got[n1:n1 + n_hold, 0] == 0) and np.all(got[n1:n1 + n_hold, 3] == 0)
+    assert np.array_equal(got[n1 + n_hold:], after)
+    if "notch" in blocks[prefix]:
+        nb = blocks[prefix]["notch"]
+        y = run_fb(prog, nb, np.column_stack([x, reset]), work)[:, 0]
+        assert np.array_equal(y[:n1], BiquadModel(plan.notch.table).run(x[:n1]))
+        assert np.all(y[n1:n1 + n_hold] == 0)
+        assert np.array_equal(y[n1 + n_hold:], BiquadModel(plan.notch.table).run(x[n1 + n_hold:]))
+
+
+@pytest.mark.parametrize("prefix", ["sb", "sd"])
+def test_notch_fb_bit_exact_on_the_c_selftest_vectors(st, prefix):
+    plans, blocks, prog, work = st
+    v = selftest_vectors(plans[prefix])
+    got = run_fb(prog, blocks[prefix]["notch"], np.column_stack([v.notch_in, 0 * v.notch_in]), work)
+    assert np.array_equal(got[:, 0], v.notch_out)
+
+
+@pytest.mark.parametrize("prefix", ["sa", "sc"])
+def test_distance_exact_across_row_switches(st, prefix):
+    """Independent of the Python reference (shk_shaper.h: exact distance): commands small enough that no
+    output saturates, the row changed every 7 cycles through all rows, then zeros for a whole ring: the
+    shaped outputs add up exactly to the commands."""
+    plans, blocks, prog, work = st
+    plan = plans[prefix]
+    s = plan.schedule
+    row_lengths = np.r_[s.length_min, s.thresholds]  # the first count of each row
+    n_move, n = 4 * plan.shaper.ring_len, 5 * plan.shaper.ring_len
+    F = 15 if plan.fmt == "q15" else 31
+    xmax = (1 << (2 * F - 1)) // plan.shaper.abs_sum  # |slot| <= W xmax / 2^F <= half of full scale
+    x = np.where(np.arange(n) < n_move, np.random.default_rng(5).integers(-xmax, xmax, n, endpoint=True), 0)
+    L = row_lengths[(np.arange(n) // 7) % row_lengths.size]
+    got = run_fb(prog, blocks[prefix]["shaper"], np.column_stack([x, L, 0 * x]), work)
+    assert int(got[:, 0].sum()) == int(x.sum()) and got[-1, 3] == 0
+
+
+def test_edited_table_is_refused_with_err_table(st):
+    plans, blocks, prog, work = st
+    x = np.full(50, 1000)
+    got = run_fb(prog, blocks["bad"]["shaper"], np.column_stack([x, 0 * x + plans["bad"].schedule.length_min,
+                                                                 0 * x]), work)
+    assert np.all(got[:, 0] == 0) and np.all(got[:, 2] == STATUS_VALUES["ERR_TABLE"])
