@@ -7,33 +7,17 @@ the run (the ST claims none can happen by construction)."""
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
-from scipy.signal import iirnotch
 
-from stillhook.firmware.plan import plan_for_project
 from stillhook.firmware.qformat import BiquadModel, sample_limits
 from stillhook.firmware.render_st import render_st_files, st_blocks, st_file_names
 from stillhook.firmware.shaper_model import ShaperModel
 from stillhook.firmware.st_shaper import STATUS_VALUES
 from stillhook.firmware.vectors import SEGMENT_CYCLES, selftest_vectors, stress_signal
 from tests.firmware.st_tools import build_harness, run_fb
-from tests.firmware.test_plan import two_mode_schedule
-
-
-def _plans(project):
-    b1, a1 = iirnotch(4.0, 2.0, fs=200.0)  # a Q15-friendly notch pair (as tests/firmware/test_c_runtime.py)
-    b2, a2 = iirnotch(9.0, 3.0, fs=200.0)
-    return {
-        "sa": plan_for_project(project, fmt="q15", prefix="sa", include_notch=False),
-        "sb": plan_for_project(project, schedule=two_mode_schedule(project, 9), fmt="q15", prefix="sb",
-                               notch_sos=np.array([[*b1, *a1], [*b2, *a2]])),
-        "sc": plan_for_project(project, schedule=two_mode_schedule(project, 17, negative_rows=(3, 4)), fmt="q31",
-                               prefix="sc", include_notch=False),
-        "sd": plan_for_project(project, fmt="q31", prefix="sd", include_notch=True),
-        "se": plan_for_project(project, schedule=two_mode_schedule(project, 1), fmt="q15", prefix="se",
-                               include_notch=False),
-    }
 
 
 def _corrupt(st: str) -> str:
@@ -48,12 +32,12 @@ def _corrupt(st: str) -> str:
 
 
 @pytest.fixture(scope="module")
-def st(tmp_path_factory, demo_project):
+def st(tmp_path_factory, st_plans):
     """Every plan's ST in one file (prefixes keep the names apart), plus a corrupted copy of 'sa' renamed
     'bad'; compiled once. Returns (plans, blocks by prefix, harness, work folder)."""
     work = tmp_path_factory.mktemp("st_runtime")
-    plans = _plans(demo_project)
-    plans["bad"] = plan_for_project(demo_project, fmt="q15", prefix="bad", include_notch=False)
+    plans = dict(st_plans)
+    plans["bad"] = dataclasses.replace(st_plans["sa"], prefix="bad")
     texts = []
     for p, plan in plans.items():
         text = render_st_files(plan)[st_file_names(plan)["st"]]

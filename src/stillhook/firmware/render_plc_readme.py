@@ -48,7 +48,7 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
     f = plan.fmt
     F = FRACTION_BITS[f]
     s, sh = plan.schedule, plan.shaper
-    shaper = blocks[0].pou.name
+    decls = [f"    {b.key} : {b.pou.name};" for b in blocks]
     chain = " -> ".join(b.pou.name for b in blocks)
     sample = "INT" if f == "q15" else "DINT"
     full = (1 << F) - 1
@@ -69,8 +69,8 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
         "every sway frequency the design cancels). Call it exactly once per cycle, every cycle, also "
         f"while the crane stands still. Chain: speed reference -> {chain} -> drive speed setpoint.", "",
         "```",
-        f"shaper(speed_in := speed_ref, rope_length := rope_counts, reset := shaper_reset);",
-        *([f"notch(speed_in := shaper.speed_out, reset := shaper_reset);",
+        "shaper(speed_in := speed_ref, rope_length := rope_counts, reset := shaper_reset);",
+        *(["notch(speed_in := shaper.speed_out, reset := shaper_reset);",
            "drive_speed := notch.speed_out;"] if len(blocks) > 1 and blocks[1].key == "notch"
           else ["drive_speed := shaper.speed_out;"]),
         "IF shaper.status <> 0 THEN (* outside the envelope or table fault: see below *) END_IF;",

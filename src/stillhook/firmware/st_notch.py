@@ -152,10 +152,18 @@ def notch_cost(plan) -> OpCount:
     """Operations of one cycle (reset FALSE), worst case; counted from ``_Q15`` / ``_Q31``."""
     t = plan.notch.table
     if t.fmt == "q15":
-        stage = (OpCount(multiplies=2 + 5, adds=4 + 4 + 1 + 3 + 1, compares=1 + 2, array_reads=5 + 4 + 2,
-                         array_writes=4) + FLOOR_DIV_COST)
+        # c, s (2 muls); five products, 7 index adds, 4 sums; rounding add + floor; 2 saturation compares;
+        # state shift: 4 writes, 2 reads, 4 index adds
+        stage = (OpCount(multiplies=2 + 5, adds=7 + 4 + 1 + 4, compares=2, array_reads=5 + 4 + 2, array_writes=4)
+                 + FLOOR_DIV_COST)
     else:
-        per_state = OpCount(multiplies=3, adds=1 + 2 + 2 + 1 + 1, compares=1, array_reads=2 + 1) + FLOOR_DIV_COST
-        stage = (OpCount(multiplies=2 + 3, adds=1 + 1 + 1 + 1, compares=1 + 2, array_reads=2, array_writes=4)
+        # per state value (4 passes): read (index add), split (floor, mul, sub), two products with their
+        # index adds (2 each) and sums, the pass's own add and compare
+        per_state = (OpCount(multiplies=3, adds=1 + 4 + 2 + 1 + 1, compares=1, array_reads=1 + 2)
+                     + FLOOR_DIV_COST)
+        # c, s (2 muls); split of v (floor, mul, sub) and its two products; rounding (2 adds, 2 floors);
+        # 2 saturation compares; state shift: 4 writes, 2 reads, 4 index adds
+        stage = (OpCount(multiplies=2 + 3, adds=1 + 2 + 4, compares=2, array_reads=2 + 2, array_writes=4)
                  + per_state * 4 + FLOOR_DIV_COST * 3)
-    return OpCount(compares=1) + (stage + OpCount(adds=1, compares=1)) * t.n_stages
+    # the stage loop: bound once (1 add), then one add and one compare per stage
+    return OpCount(adds=1) + (stage + OpCount(adds=1, compares=1)) * t.n_stages

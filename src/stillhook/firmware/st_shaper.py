@@ -265,7 +265,7 @@ def shaper_pou(plan) -> StPou:
         f"speed_in: speed command as a {f.upper()} fraction of full-scale speed ({sample}).",
         f"rope_length: rope length in counts of {sc.lsb_m:g} m (UDINT).",
         "reset: TRUE empties the ring (motion in flight is dropped) and holds speed_out at 0.",
-        f"speed_out: shaped speed command, same scaling as speed_in; row: schedule row used;",
+        "speed_out: shaped speed command, same scaling as speed_in; row: schedule row used;",
         "status: 0 OK, 1 rope below the envelope (first row used), 2 above it (last row used),",
         "8 table check failed (output held at 0); clipped: outputs saturated since reset.",
         "Bit-exact with the C runtime (shk_shaper.h, shk_schedule.h) and stillhook's integer reference.",
@@ -298,8 +298,8 @@ def shaper_cost(plan, n_taps: int) -> OpCount:
         lookup += OpCount(divisions=1, adds=3, compares=2, array_reads=1) * passes + OpCount(adds=1, compares=1)
     per_tap = (OpCount(adds=1 + 1 + 1 + 1 + 1 + 2 + 1, compares=1 + 1, multiplies=2, array_reads=3,
                        array_writes=1) + FLOOR_DIV_COST)
-    # fixed: reset test, widen, base (mul), loop bound (sub + N_TAPS read), e, slot read, two floors,
-    # remainder (mul, sub, mul, add), ring clear, head (+1, compare), saturation (2 compares, clip +1)
-    fixed = (OpCount(multiplies=3, adds=1 + 1 + 1 + 3 + 1 + 1 + 1, compares=1 + 1 + 3, array_reads=2,
+    # fixed: base (mul), loop bound (sub, N_TAPS read), e (add), slot read, y (2 adds, 2 floors),
+    # remainder (2 muls, 2 adds), ring[head] := 0, head (add, compare), saturation (2 compares, clip compare, add)
+    fixed = (OpCount(multiplies=1 + 2, adds=1 + 1 + 2 + 2 + 1 + 1, compares=1 + 2 + 1, array_reads=2,
                      array_writes=1) + FLOOR_DIV_COST * 2)
     return lookup + fixed + per_tap * n_taps
