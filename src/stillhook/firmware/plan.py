@@ -40,7 +40,7 @@ from stillhook.errors import ConfigError, EmitError
 from stillhook.firmware.notch_tables import choose_notch_format
 from stillhook.firmware.qformat import FRACTION_BITS, ScheduleTable, quantize_amplitudes
 from stillhook.firmware.render_c import render_readme, render_tables_c, render_tables_h
-from stillhook.firmware.render_st import render_st_files
+from stillhook.firmware.render_st import check_st_prefix, render_st_files
 from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
 from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
@@ -318,6 +318,8 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
 #: Emit targets: ``c`` (tables + portable C runtime, the default) and ``st`` (IEC 61131-3 Structured
 #: Text + PLCopen XML, :mod:`stillhook.firmware.render_st`). Both render the same EmitPlan.
 EMIT_TARGETS = {"c": render_files, "st": render_st_files}
+#: Extra rule a target puts on the prefix, checked before any design work.
+_PREFIX_RULES = {"st": check_st_prefix}
 
 
 def _renderer(target: str):
@@ -348,7 +350,10 @@ def write_emit(project, out_dir, *, target: str = "c", **options) -> tuple[EmitP
     -------
     (plan, written paths)
     """
-    render = _renderer(target)  # an unknown target is refused before the design work
+    render = _renderer(target)  # an unknown target or a prefix it cannot use is refused before the design work
+    if target in _PREFIX_RULES:
+        _PREFIX_RULES[target](_check_prefix(prefix if (prefix := options.get("prefix")) is not None
+                                            else project.firmware["prefix"]))
     plan = plan_for_project(project, **options)
     files = render(plan)
     return plan, write_files(out_dir, files)

@@ -69,6 +69,8 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
         "every sway frequency the design cancels). Call it exactly once per cycle, every cycle, also "
         f"while the crane stands still. Chain: speed reference -> {chain} -> drive speed setpoint.", "",
         "```",
+        "VAR", *decls, "END_VAR",
+        "(* in the cyclic task, every cycle: *)",
         "shaper(speed_in := speed_ref, rope_length := rope_counts, reset := shaper_reset);",
         *(["notch(speed_in := shaper.speed_out, reset := shaper_reset);",
            "drive_speed := notch.speed_out;"] if len(blocks) > 1 and blocks[1].key == "notch"

@@ -16,6 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from stillhook.cautions import CAUTIONS
+from stillhook.errors import ConfigError, EmitError
 from stillhook.firmware.plcopen import plcopen_xml
 from stillhook.firmware.qformat import FRACTION_BITS
 from stillhook.firmware.render_plc_readme import render_plc_readme
@@ -27,8 +28,8 @@ from stillhook.firmware.st_shaper import SHAPER_INPUTS, SHAPER_OUTPUTS, shaper_c
 from stillhook.outputs import to_json
 from stillhook.version import __version__
 
-__all__ = ["ST_BLOCKS", "StBlock", "notch_block", "render_st_files", "shaper_block", "st_blocks", "st_file_names",
-           "st_pous"]
+__all__ = ["ST_BLOCKS", "StBlock", "check_st_prefix", "notch_block", "render_st_files", "shaper_block", "st_blocks",
+           "st_file_names", "st_pous"]
 
 
 @dataclass(frozen=True)
@@ -68,9 +69,19 @@ def notch_block(plan) -> StBlock | None:
 ST_BLOCKS = (shaper_block, notch_block)
 
 
+def check_st_prefix(prefix: str) -> str:
+    """``prefix`` if it can start IEC 61131-3 names (``<PREFIX>_SHAPER``), else ConfigError."""
+    try:
+        st_identifier(str(prefix) + "_X")
+    except EmitError:
+        raise ConfigError(f"prefix {prefix!r} cannot start IEC 61131-3 block names; allowed for --target st: a "
+                          "letter, then letters, digits and single underscores, not ending in an underscore") from None
+    return prefix
+
+
 def st_blocks(plan) -> list[StBlock]:
     """The plan's blocks, in call order."""
-    st_identifier(plan.prefix.upper() + "_X")  # refuses prefixes ST cannot use (double/trailing underscore)
+    check_st_prefix(plan.prefix)
     return [b for b in (build(plan) for build in ST_BLOCKS) if b is not None]
 
 
