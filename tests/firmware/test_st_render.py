@@ -12,7 +12,8 @@ from stillhook.cautions import CAUTIONS
 from stillhook.errors import ConfigError
 from stillhook.firmware.plan import EMIT_TARGETS, render_target
 from stillhook.firmware.render_plc_readme import OPERATION_KEYS
-from stillhook.firmware.render_st import render_st_files, st_blocks, st_file_names
+from stillhook.firmware.render_st import render_st_files, st_blocks, st_file_names, st_pous
+from stillhook.firmware.st_pou import st_text
 from stillhook.firmware.st_shaper import STATUS_VALUES, shaper_cost
 
 
@@ -73,3 +74,12 @@ def test_unknown_target_is_refused(st_plans):
     assert set(EMIT_TARGETS) == {"c", "st"}
     with pytest.raises(ConfigError, match="allowed: c, st"):
         render_target(st_plans["se"], "plc")
+
+
+def test_q15_shaper_needs_no_64_bit_type(st_plans):
+    """Many PLCs lack LINT: the Q15 shaper (and the helper it calls) must not use it."""
+    for key in ("sa", "sb", "se"):
+        pous = {p.name: p for p in st_pous(st_plans[key])}
+        shaper = pous[f"{key.upper()}_SHAPER"]
+        assert "LINT" not in st_text(shaper)
+        assert f"{key.upper()}_FLOOR_DIV_DINT" in shaper.body

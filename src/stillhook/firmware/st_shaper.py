@@ -13,7 +13,8 @@ shk_shaper_*_select, shk_shaper_*_step), with the same integers::
 floor is the floor-division helper of :mod:`stillhook.firmware.st_arith`, never a shift.
 
 Types: Q15 samples INT with DINT amplitudes, products and ring slots; Q31 samples DINT with LINT
-amplitudes, products and slots (the C runtime's int16/int32 and int32/int64). Tables are VAR
+amplitudes, products and slots (the C runtime's int16/int32 and int32/int64). The Q15 shaper needs no
+64-bit type at all, so it also runs on PLCs without LINT. Tables are VAR
 CONSTANT arrays checked on the first call (as shk_shaper_*_init checks them); a table that fails
 gives status ERR_TABLE and output 0 for good.
 
@@ -26,7 +27,7 @@ from __future__ import annotations
 
 import math
 
-from stillhook.firmware.qformat import FRACTION_BITS
+from stillhook.firmware.qformat import FRACTION_BITS, MAX_TAPS
 from stillhook.firmware.shaper_model import SLOT_SHIFT, abs_sum_limit
 from stillhook.firmware.st_arith import FLOOR_DIV_COST, OpCount, floor_div_name
 from stillhook.firmware.st_pou import StPou, StVar
@@ -67,20 +68,21 @@ _CHECK = """IF NOT checked OR (reset AND NOT reset_prev) THEN
                 j := r * STRIDE + i; (* < ROWS * STRIDE: the array length *)
                 IF DELAY[j] >= RING_LEN OR AMPLITUDE[j] > FULL OR AMPLITUDE[j] < -FULL THEN
                     table_ok := FALSE;
-                ELSE
-                    (* |A| <= 2^$F: sum and total stay below ROWS * STRIDE * 2^$F < 2^63 *)
-                    sum := sum + $TOLINT(AMPLITUDE[j]);
-                    total := total + $TOLINT(ABS(AMPLITUDE[j]));
+                ELSIF table_ok THEN
+                    (* |A| <= 2^$F: a row sum stays within STRIDE 2^$F <= 2^$SUMBITS, and total stops
+                       growing once past ABS_SUM_LIMIT, so it stays below ABS_SUM_LIMIT + 2^$F: both fit $WIDE *)
+                    sum := sum + AMPLITUDE[j];
+                    total := total + ABS(AMPLITUDE[j]);
+                    IF total > ABS_SUM_LIMIT THEN
+                        table_ok := FALSE; (* the ring could overflow under some sequence of rows *)
+                    END_IF;
                 END_IF;
             END_FOR;
-            IF sum <> $TOLINT(FULL) THEN
+            IF sum <> FULL THEN
                 table_ok := FALSE; (* every row must sum to exactly 2^$F: unity gain, exact distance *)
             END_IF;
         END_IF;
     END_FOR;
-    IF total > ABS_SUM_LIMIT THEN
-        table_ok := FALSE; (* the ring could overflow under some sequence of rows *)
-    END_IF;
 $THRESHOLD_CHECK    FOR k := 0 TO RING_LEN - 1 DO
         ring[k] := 0;
     END_FOR;
@@ -164,7 +166,8 @@ slot := ring[head];
 (* y = floor((2^S slot + e + 2^(F-1)) / 2^F) = floor((slot + floor((e + 2^(F-1)) / 2^S)) / 2^(F-S));
    the inner sum is within the slot bound above *)
 y := $FLOOR(slot + $FLOOR(e + $FHALF, $SFULL), $FSFULL);
-(* new remainder = 2^S (slot - 2^(F-S) y) + e, in [-2^(F-1), 2^(F-1)): fits DINT *)
+(* new remainder = 2^S (slot - 2^(F-S) y) + e, in [-2^(F-1), 2^(F-1)): fits DINT. 2^(F-S) y lies within
+   2^(F-S) - 1 below the inner sum above, so it is inside the slot bound too *)
 remainder := $NARROW((slot - y * $FSFULL) * $SFULL + e);
 ring[head] := 0;
 head := head + 1;
@@ -205,7 +208,7 @@ def _names(plan) -> dict[str, str]:
         "FLOOR": floor,
         "WIDEN": "INT_TO_DINT" if f == "q15" else "DINT_TO_LINT",
         "TOSAMPLE": "DINT_TO_INT" if f == "q15" else "LINT_TO_DINT",
-        "TOLINT": "DINT_TO_LINT" if f == "q15" else "",
+        "SUMBITS": str(F + (MAX_TAPS - 1).bit_length()), "WIDE": wide,  # STRIDE <= MAX_TAPS
         "E_EXPR": "remainder + rho_sum" if f == "q15" else "DINT_TO_LINT(remainder) + rho_sum",
         "NARROW": "" if f == "q15" else "LINT_TO_DINT",
         "ITER": str(max(1, math.ceil(math.log2(plan.shaper.n_rows))) if plan.shaper.n_rows > 1 else 0),
@@ -233,7 +236,7 @@ def shaper_pou(plan) -> StPou:
         StVar("STRIDE", "UDINT", init=sh.stride, comment="taps reserved per row"),
         StVar("RING_LEN", "UDINT", init=sh.ring_len, comment="ring slots: longest delay + 1 cycles"),
         StVar("FULL", wide, init=1 << F, comment=f"2^{F}: every row's amplitudes sum to exactly this"),
-        StVar("ABS_SUM_LIMIT", "LINT", init=abs_sum_limit(f, sh.stride),
+        StVar("ABS_SUM_LIMIT", wide, init=abs_sum_limit(f, sh.stride),
               comment="largest sum |A| over all rows whose ring cannot overflow"),
         StVar("LEN_MIN", "UDINT", init=sc.length_min, comment="envelope, shortest rope, counts"),
         StVar("LEN_MAX", "UDINT", init=sc.length_max, comment="envelope, longest rope, counts"),
@@ -256,7 +259,7 @@ def shaper_pou(plan) -> StPou:
              StVar("reset_prev", "BOOL", init=False),
              *[StVar(v, "UDINT") for v in ("length", "lo", "hi", "middle", "base", "i", "j", "k", "r")],
              *[StVar(v, wide) for v in ("x", "p", "q", "rho_sum", "e", "slot", "y")],
-             StVar("sum", "LINT"), StVar("total", "LINT")]
+             StVar("sum", wide), StVar("total", wide)]
     comment = (
         f"{shaper_pou_name(plan)}: command shaper with rope-length schedule, {f.upper()}, "
         f"for a {plan.cycle_s:g} s cycle.",
