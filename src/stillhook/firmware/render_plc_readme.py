@@ -112,6 +112,9 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
         "IEC integer division truncates toward zero and SHL/SHR act on bit strings, so the blocks never shift "
         "a signed value: every rounding is floor((v + 2^(s-1)) / 2^s) through the floor-division helper "
         "functions, giving the same integers as the C runtime (codegen/shk_*.h). No operation can overflow; "
-        "the bound of each is written beside it in the ST.", "",
+        "the bound of each is written beside it in the ST. Types: "
+        + ("the Q15 shaper uses INT, DINT and UDINT only (no 64-bit LINT), so it also runs on PLCs without LINT"
+           if f == "q15" else "the Q31 shaper needs LINT (64-bit) for its products and ring")
+        + ("; the notch needs LINT for its accumulator." if plan.notch is not None else "."), "",
         "## Cautions", "", *[f"- {c}" for c in CAUTIONS], ""]
     return "\n".join(lines)

@@ -20,6 +20,7 @@ from stillhook.errors import ConfigError, EmitError
 from stillhook.firmware.plcopen import plcopen_xml
 from stillhook.firmware.qformat import FRACTION_BITS
 from stillhook.firmware.render_plc_readme import render_plc_readme
+from stillhook.firmware.runtime import RUNTIME_VERSION
 from stillhook.firmware.shaper_model import switch_transient
 from stillhook.firmware.st_arith import floor_div_pou
 from stillhook.firmware.st_notch import NOTCH_INPUTS, NOTCH_OUTPUTS, notch_cost, notch_helpers, notch_pou
@@ -113,6 +114,8 @@ def _header(plan, blocks) -> list[str]:
         "Rounding: every division is the floor helper (IEC DIV truncates, SHR is for bit strings), so the",
         "integers equal those of the C runtime (codegen/shk_*.h) and of stillhook's Python reference.",
         "Overflow: none by construction; the bound is stated beside each operation.",
+        f"Runtime contract: version {RUNTIME_VERSION} of the C runtime (shk_fixed.h SHK_RUNTIME_VERSION); the "
+        "tables are checked on the first call.",
         f"Row switch while moving: the shaped command moves by up to {100 * switch_transient(plan.shaper):.3g} % "
         "of a steady command for at most "
         f"{plan.shaper.ring_len - 1} cycles (see the README).",
