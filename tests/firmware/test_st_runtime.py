@@ -17,7 +17,7 @@ from stillhook.firmware.render_st import render_st_files, st_blocks, st_file_nam
 from stillhook.firmware.shaper_model import ShaperModel
 from stillhook.firmware.st_shaper import STATUS_VALUES
 from stillhook.firmware.vectors import SEGMENT_CYCLES, selftest_vectors, stress_signal
-from tests.firmware.st_tools import build_harness, run_fb
+from tests.firmware.st_tools import build_harness, require_iec2c, run_fb
 
 
 def _corrupt(st: str) -> str:
@@ -31,8 +31,14 @@ def _corrupt(st: str) -> str:
         values[n:]
 
 
+@pytest.fixture(scope="session")
+def iec2c_exe():
+    """Checked first, so a machine without iec2c skips before any design work."""
+    return require_iec2c()
+
+
 @pytest.fixture(scope="module")
-def st(tmp_path_factory, st_plans):
+def st(tmp_path_factory, iec2c_exe, st_plans):
     """Every plan's ST in one file (prefixes keep the names apart), plus a corrupted copy of 'sa' renamed
     'bad'; compiled once. Returns (plans, blocks by prefix, harness, work folder)."""
     work = tmp_path_factory.mktemp("st_runtime")
