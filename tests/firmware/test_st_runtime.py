@@ -12,12 +12,31 @@ import dataclasses
 import numpy as np
 import pytest
 
+from stillhook.firmware.plan import ShaperRow
 from stillhook.firmware.qformat import BiquadModel, sample_limits
 from stillhook.firmware.render_st import render_st_files, st_blocks, st_file_names
-from stillhook.firmware.shaper_model import ShaperModel
+from stillhook.firmware.shaper_model import ShaperModel, ShaperTable
 from stillhook.firmware.st_shaper import STATUS_VALUES
 from stillhook.firmware.vectors import SEGMENT_CYCLES, selftest_vectors, stress_signal
 from tests.firmware.st_tools import build_harness, require_iec2c, run_fb
+
+
+def _extreme(plan, prefix: str):
+    """``plan`` with two synthetic rows at the limits of the contract: 127 taps of full-scale magnitude with
+    alternating signs (+2^F at even delays, -2^F at odd ones: each row sums to exactly 2^F), the second row
+    with the delays reversed; W = 254 x full scale, just under the ring's limit of about 256 x. Products
+    reach 2^(2F) and alternating full-scale input piles every tap of a slot up with one sign."""
+    F = 15 if plan.fmt == "q15" else 31
+    d = np.arange(127)
+    a = np.where(d % 2 == 0, 1 << F, -(1 << F))
+    pairs = [(a, d), (a[::-1], d[::-1])]
+    table = ShaperTable.from_rows(pairs, plan.fmt)
+    assert table.abs_sum == 254 << F
+    rows = tuple(ShaperRow(L, tuple(int(v) for v in aa), tuple(int(v) for v in dd))
+                 for L, (aa, dd) in zip((plan.rows[0].rope_length_m, plan.rows[-1].rope_length_m), pairs, strict=True))
+    mid = (plan.schedule.length_min + plan.schedule.length_max) // 2
+    sched = dataclasses.replace(plan.schedule, thresholds=np.array([mid], dtype=np.int64))
+    return dataclasses.replace(plan, prefix=prefix, shaper=table, rows=rows, schedule=sched, notch=None)
 
 
 def _corrupt(st: str) -> str:
@@ -44,6 +63,8 @@ def st(tmp_path_factory, iec2c_exe, st_plans):
     work = tmp_path_factory.mktemp("st_runtime")
     plans = dict(st_plans)
     plans["bad"] = dataclasses.replace(st_plans["sa"], prefix="bad")
+    plans["xa"] = _extreme(st_plans["sa"], "xa")
+    plans["xb"] = _extreme(st_plans["sd"], "xb")
     texts = []
     for p, plan in plans.items():
         text = render_st_files(plan)[st_file_names(plan)["st"]]
@@ -65,7 +86,7 @@ def _reference(plan, x, lengths):
     return np.column_stack([y, rows, status, clipped])
 
 
-@pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd", "se"])
+@pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd", "se", "xa", "xb"])
 def test_shaper_fb_bit_exact_on_the_c_selftest_vectors(st, prefix):
     plans, blocks, prog, work = st
     plan = plans[prefix]
@@ -77,7 +98,7 @@ def test_shaper_fb_bit_exact_on_the_c_selftest_vectors(st, prefix):
     assert set(got[:, 2]) == {STATUS_VALUES["OK"], STATUS_VALUES["CLAMPED_LOW"], STATUS_VALUES["CLAMPED_HIGH"]}
 
 
-@pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd"])
+@pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd", "xa", "xb"])
 def test_shaper_fb_bit_exact_with_a_row_switch_at_every_cycle(st, prefix):
     plans, blocks, prog, work = st
     plan = plans[prefix]
@@ -91,6 +112,22 @@ def test_shaper_fb_bit_exact_with_a_row_switch_at_every_cycle(st, prefix):
     ref = _reference(plan, x, lengths)
     assert np.array_equal(got, ref)
     assert len(set(ref[:, 1])) == plan.shaper.n_rows  # every row was used
+
+
+@pytest.mark.parametrize("prefix", ["xa", "xb"])
+def test_extreme_tables_pile_up_slots_near_their_bound(st, prefix):
+    """Alternating full-scale input on the alternating-sign rows: every part in a slot has one sign, the
+    output saturates nearly every cycle, the FB counts each one and stays bit-exact (and UBSan-clean)."""
+    plans, blocks, prog, work = st
+    plan = plans[prefix]
+    lo, hi = sample_limits(plan.fmt)
+    n = 4 * plan.shaper.ring_len
+    x = np.where(np.arange(n) % 2 == 0, hi, lo)
+    lengths = np.where((np.arange(n) // 5) % 2 == 0, plan.schedule.length_min, plan.schedule.length_max)
+    got = run_fb(prog, blocks[prefix]["shaper"], np.column_stack([x, lengths, 0 * x]), work)
+    ref = _reference(plan, x, lengths)
+    assert np.array_equal(got, ref)
+    assert ref[-1, 3] > n // 2
 
 
 def test_negative_rows_saturate_and_the_fb_counts_them(st):
