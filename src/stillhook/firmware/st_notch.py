@@ -56,7 +56,7 @@ FOR n := 0 TO STAGES - 1 DO
     acc := DINT_TO_LINT(COEFF[c] * v) + DINT_TO_LINT(COEFF[c + 1] * state[s])
          + DINT_TO_LINT(COEFF[c + 2] * state[s + 1]) + DINT_TO_LINT(COEFF[c + 3] * state[s + 2])
          + DINT_TO_LINT(COEFF[c + 4] * state[s + 3]);
-    (* round half up, shift s = 15 - POST_SHIFT = $SH *)
+    (* round half up: y = floor((acc + 2^(m-1)) / 2^m), m = 15 - POST_SHIFT = $SH *)
     y := $FLOOR(acc + $HALF, $DIV);
     IF y > 32767 THEN
         y := 32767;
@@ -94,7 +94,7 @@ FOR n := 0 TO STAGES - 1 DO
         acc_hi := acc_hi + COEFF[c + t + 1] * hi;
         acc_lo := acc_lo + COEFF[c + t + 1] * (w - hi * 65536);
     END_FOR;
-    (* y = floor((2^16 acc_hi + acc_lo + 2^(s-1)) / 2^s), s = 31 - POST_SHIFT = $SH (shk_finish_split) *)
+    (* y = floor((2^16 acc_hi + acc_lo + 2^(m-1)) / 2^m), m = 31 - POST_SHIFT = $SH (shk_finish_split) *)
     y := $FLOOR(acc_hi + $FLOOR16(acc_lo + $HALF, 65536), $DIV);
     IF y > 2147483647 THEN
         y := 2147483647;
