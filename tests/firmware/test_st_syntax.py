@@ -10,6 +10,7 @@ helper functions counts the helper's body; conversions are free."""
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -171,3 +172,10 @@ def test_shaper_cost_grows_with_the_taps_of_the_row_only(plans):
                   for p in plans.values() for n in (1, 2, 7, 40)}
     assert len(increments) == 1
     assert len({p.shaper.ring_len for p in plans.values()}) > 1  # plans with different rings agree
+
+
+def test_a_project_name_with_non_ascii_and_comment_delimiters_still_gives_valid_st(plans):
+    plan = dataclasses.replace(plans["se"], project_name="Kr\u00e4ne *) (* x", prefix="pz")
+    text = render_st_files(plan)[st_file_names(plan)["st"]]
+    assert text.isascii() and "Kr?ne * ) ( * x" in text
+    assert not parser().parse(text.encode()).root_node.has_error

@@ -42,16 +42,13 @@ def st_identifier(name: str) -> str:
 
 
 def st_comment(lines) -> str:
-    """One ``(* ... *)`` block; comment text may not close the comment early."""
-    lines = list(lines)
-    for ln in lines:
-        if "*)" in ln or "(*" in ln:
-            raise EmitError(f"comment text {ln!r} contains a comment delimiter")
-        if not ln.isascii():
-            raise EmitError(f"comment text {ln!r} is not ASCII; allowed: ASCII only (portable ST)")
-    if len(lines) == 1:
-        return f"(* {lines[0]} *)"
-    return "(*\n" + "\n".join(("   " + ln).rstrip() for ln in lines) + "\n*)"
+    """One ``(* ... *)`` block. Text from the user (a project file name) is made safe: characters outside
+    ASCII become '?', and comment delimiters inside the text are split ('( *', '* )')."""
+    safe = ["".join(ch if ch.isascii() else "?" for ch in str(ln)).replace("(*", "( *").replace("*)", "* )")
+            for ln in lines]
+    if len(safe) == 1:
+        return f"(* {safe[0]} *)"
+    return "(*\n" + "\n".join(("   " + ln).rstrip() for ln in safe) + "\n*)"
 
 
 @dataclass(frozen=True)
