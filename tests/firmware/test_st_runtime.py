@@ -75,15 +75,30 @@ def st(tmp_path_factory, iec2c_exe, st_plans):
     return plans, blocks, prog, work
 
 
+def _settled(x, ring_len: int) -> np.ndarray:
+    """The FB's ``settled``: the last ring_len commands (this one included, none before the first cycle)
+    were all 0."""
+    nonzero = np.flatnonzero(np.asarray(x) != 0)
+    last = np.full(len(x), -ring_len - 1)  # index of the latest non-zero command at or before each cycle
+    if nonzero.size:
+        idx = np.searchsorted(nonzero, np.arange(len(x)), side="right") - 1
+        last = np.where(idx >= 0, nonzero[np.maximum(idx, 0)], -ring_len - 1)
+    return (np.arange(len(x)) - last >= ring_len).astype(np.int64)
+
+
 def _reference(plan, x, lengths):
-    """(speed_out, row, status, clipped) per cycle from the Python reference, one cycle at a time."""
+    """(speed_out, row, status, clipped, settled) per cycle from the Python reference, one cycle at a time;
+    checks on the way that a settled cycle really left nothing in the ring and output 0."""
     rows, status = plan.schedule.lookup(lengths)
     model = ShaperModel(plan.shaper)
     y, clipped = np.empty(x.size, dtype=np.int64), np.empty(x.size, dtype=np.int64)
+    settled = _settled(x, plan.shaper.ring_len)
     for n in range(x.size):
         y[n] = model.run(x[n:n + 1], rows[n:n + 1])[0]
         clipped[n] = model.clipped
-    return np.column_stack([y, rows, status, clipped])
+        if settled[n]:
+            assert y[n] == 0 and not model.pending()
+    return np.column_stack([y, rows, status, clipped, settled])
 
 
 @pytest.mark.parametrize("prefix", ["sa", "sb", "sc", "sd", "se", "xa", "xb"])
@@ -158,6 +173,7 @@ def test_reset_empties_the_ring_and_holds_the_output(st, prefix):
     after = _reference(plan, x[n1 + n_hold:], L[n1 + n_hold:])  # a fresh instance
     assert np.array_equal(got[:n1], before)
     assert np.all(got[n1:n1 + n_hold, 0] == 0) and np.all(got[n1:n1 + n_hold, 3] == 0)
+    assert np.all(got[n1:n1 + n_hold, 4] == 1)  # nothing in flight while held in reset
     assert np.array_equal(got[n1 + n_hold:], after)
     if "notch" in blocks[prefix]:
         nb = blocks[prefix]["notch"]
@@ -191,6 +207,8 @@ def test_distance_exact_across_row_switches(st, prefix):
     L = row_lengths[(np.arange(n) // 7) % row_lengths.size]
     got = run_fb(prog, blocks[prefix]["shaper"], np.column_stack([x, L, 0 * x]), work)
     assert int(got[:, 0].sum()) == int(x.sum()) and got[-1, 3] == 0
+    last = int(np.flatnonzero(x)[-1])  # settled comes exactly RING_LEN cycles after the last command
+    assert got[last + plan.shaper.ring_len - 1, 4] == 0 and np.all(got[last + plan.shaper.ring_len:, 4] == 1)
 
 
 def test_edited_table_is_refused_with_err_table(st):
@@ -198,4 +216,4 @@ def test_edited_table_is_refused_with_err_table(st):
     x = np.full(50, 1000)
     got = run_fb(prog, blocks["bad"]["shaper"], np.column_stack([x, 0 * x + plans["bad"].schedule.length_min,
                                                                  0 * x]), work)
-    assert np.all(got[:, 0] == 0) and np.all(got[:, 2] == STATUS_VALUES["ERR_TABLE"])
+    assert np.all(got[:, 0] == 0) and np.all(got[:, 2] == STATUS_VALUES["ERR_TABLE"]) and not np.any(got[:, 4])

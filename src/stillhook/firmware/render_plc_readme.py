@@ -76,6 +76,7 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
            "drive_speed := notch.speed_out;"] if len(blocks) > 1 and blocks[1].key == "notch"
           else ["drive_speed := shaper.speed_out;"]),
         "IF shaper.status <> 0 THEN (* outside the envelope or table fault: see below *) END_IF;",
+        "(* shaper.settled: no shaped motion left (command 0 for a whole ring); see Stop and reset *)",
         "```", "",
         "## Scaling", "",
         f"- `speed_in`, `speed_out`: {sample}, the speed command as a {f.upper()} fraction of a full-scale speed "
@@ -90,9 +91,11 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
         "## Status", "", *_status_lines(), "",
         "## Stop and reset", "",
         f"- Normal stop: set `speed_in` to 0 and keep calling the block. The shaped speed reaches 0 after at "
-        f"most {sh.ring_len - 1} cycles ({(sh.ring_len - 1) * plan.cycle_s:g} s); the trolley then stands at "
-        "exactly the commanded distance (to the LSB, row switches included) as long as `clipped` = 0. Apply "
-        "brakes only after that.",
+        f"most {sh.ring_len - 1} cycles ({(sh.ring_len - 1) * plan.cycle_s:g} s); `settled` turns TRUE once the "
+        f"command has been 0 for {sh.ring_len} cycles: from then on `speed_out` is 0 while the command stays 0, "
+        "and the shaped move has delivered exactly the commanded distance (to the LSB, row switches included) "
+        "as long as `clipped` = 0. Release the stop logic of the drive (brakes) only after `settled`; it says "
+        "nothing about the crane's own motion, which the drive's standstill detection must confirm.",
         "- `reset` (rising edge): empties the ring and the remainder, clears `clipped`; while it is TRUE "
         "`speed_out` is 0. The motion still in flight is dropped, so use it only when the drive is already "
         "stopped or taken over (emergency stop, drive fault, mode change), never to stop a moving crane. "

@@ -39,7 +39,7 @@ __all__ = ["SHAPER_INPUTS", "SHAPER_OUTPUTS", "STATUS_VALUES", "shaper_cost", "s
 STATUS_VALUES = {"OK": 0, "CLAMPED_LOW": 1, "CLAMPED_HIGH": 2, "ERR_TABLE": 8}
 #: FB interface (names the harness and README use).
 SHAPER_INPUTS = ("speed_in", "rope_length", "reset")
-SHAPER_OUTPUTS = ("speed_out", "row", "status", "clipped")
+SHAPER_OUTPUTS = ("speed_out", "row", "status", "clipped", "settled")
 #: ST types per format: sample, wide (amplitudes, products, ring slots).
 _SAMPLE = {"q15": "INT", "q31": "DINT"}
 _WIDE = {"q15": "DINT", "q31": "LINT"}
@@ -89,6 +89,7 @@ $THRESHOLD_CHECK    FOR k := 0 TO RING_LEN - 1 DO
     head := 0;
     remainder := 0;
     clipped := 0;
+    zero_run := RING_LEN; (* the ring is empty: as after RING_LEN zero commands *)
     checked := TRUE;
 END_IF;
 reset_prev := reset;
@@ -96,6 +97,7 @@ IF NOT table_ok THEN
     speed_out := 0;
     row := 0;
     status := ERR_TABLE;
+    settled := FALSE; (* a fault is never reported as settled *)
     RETURN;
 END_IF;
 """
@@ -141,8 +143,18 @@ row := lo;
 
 _STEP = """IF reset THEN
     speed_out := 0; (* held in reset: nothing enters the ring *)
+    settled := TRUE;
     RETURN;
 END_IF;
+(* settled: the command has been 0 for the last RING_LEN cycles (this one included). Every part in the
+   ring then came from a zero sample, so the ring is empty, this output and every later one is 0 while
+   the command stays 0, and the remainder is 0 (shk_shaper.h, exact distance) *)
+IF speed_in <> 0 THEN
+    zero_run := 0;
+ELSIF zero_run < RING_LEN THEN
+    zero_run := zero_run + 1; (* stops at RING_LEN: cannot wrap *)
+END_IF;
+settled := zero_run >= RING_LEN;
 (* 2. scatter the new sample with the row selected now (shk_shaper_$fmt_step) *)
 x := $WIDEN(speed_in);
 base := row * STRIDE; (* < ROWS * STRIDE *)
@@ -257,6 +269,7 @@ def shaper_pou(plan) -> StPou:
              StVar("remainder", "DINT", comment=f"rounding remainder e, units 2^-{F} LSB"),
              StVar("checked", "BOOL", init=False), StVar("table_ok", "BOOL", init=False),
              StVar("reset_prev", "BOOL", init=False),
+             StVar("zero_run", "UDINT", init=sh.ring_len, comment="consecutive zero commands, up to RING_LEN"),
              *[StVar(v, "UDINT") for v in ("length", "lo", "hi", "middle", "base", "i", "j", "k", "r")],
              *[StVar(v, wide) for v in ("x", "p", "q", "rho_sum", "e", "slot", "y")],
              StVar("sum", wide), StVar("total", wide)]
@@ -270,7 +283,9 @@ def shaper_pou(plan) -> StPou:
         "reset: TRUE empties the ring (motion in flight is dropped) and holds speed_out at 0.",
         "speed_out: shaped speed command, same scaling as speed_in; row: schedule row used;",
         "status: 0 OK, 1 rope below the envelope (first row used), 2 above it (last row used),",
-        "8 table check failed (output held at 0); clipped: outputs saturated since reset.",
+        "8 table check failed (output held at 0); clipped: outputs saturated since reset;",
+        "settled: the command has been 0 for RING_LEN cycles, so this and every later output is 0 (the shaper",
+        "has delivered the whole move; it says nothing about the crane's own motion).",
         "Bit-exact with the C runtime (shk_shaper.h, shk_schedule.h) and stillhook's integer reference.",
     )
     sections = (
@@ -280,7 +295,8 @@ def shaper_pou(plan) -> StPou:
         ("VAR_OUTPUT", (StVar("speed_out", sample, comment=f"{f.upper()} shaped speed command"),
                         StVar("row", "UDINT", comment="schedule row in use"),
                         StVar("status", "UDINT", comment="0 OK, 1 CLAMPED_LOW, 2 CLAMPED_HIGH, 8 ERR_TABLE"),
-                        StVar("clipped", "UDINT", comment="saturated outputs since reset"))),
+                        StVar("clipped", "UDINT", comment="saturated outputs since reset"),
+                        StVar("settled", "BOOL", comment="command 0 for RING_LEN cycles: no motion left in the ring"))),
         ("VAR CONSTANT", tuple(consts)),
         ("VAR", tuple(local)),
     )
@@ -303,6 +319,7 @@ def shaper_cost(plan, n_taps: int) -> OpCount:
                        array_writes=1) + FLOOR_DIV_COST)
     # fixed: base (mul), loop bound (sub, N_TAPS read), e (add), slot read, y (2 adds, 2 floors),
     # remainder (2 muls, 2 adds), ring[head] := 0, head (add, compare), saturation (2 compares, clip compare, add)
-    fixed = (OpCount(multiplies=1 + 2, adds=1 + 1 + 2 + 2 + 1 + 1, compares=1 + 2 + 1, array_reads=2,
+    # settled: two compares and an add for the zero run, one compare for the flag
+    fixed = (OpCount(multiplies=1 + 2, adds=1 + 1 + 2 + 2 + 1 + 1 + 1, compares=1 + 2 + 1 + 3, array_reads=2,
                      array_writes=1) + FLOOR_DIV_COST * 2)
     return lookup + fixed + per_tap * n_taps
