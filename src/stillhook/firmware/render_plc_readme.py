@@ -94,8 +94,8 @@ def render_plc_readme(plan, blocks, names: dict[str, str]) -> str:
         f"most {sh.ring_len - 1} cycles ({(sh.ring_len - 1) * plan.cycle_s:g} s); `settled` turns TRUE once the "
         f"command has been 0 for {sh.ring_len} cycles: from then on `speed_out` is 0 while the command stays 0, "
         "and the shaped move has delivered exactly the commanded distance (to the LSB, row switches included) "
-        "as long as `clipped` = 0. Release the stop logic of the drive (brakes) only after `settled`; it says "
-        "nothing about the crane's own motion, which the drive's standstill detection must confirm.",
+        "as long as `clipped` = 0. Apply the holding brake only after `settled` AND the drive's own standstill "
+        "detection: `settled` says the command is finished, not that the crane has stopped.",
         "- `reset` (rising edge): empties the ring and the remainder, clears `clipped`; while it is TRUE "
         "`speed_out` is 0. The motion still in flight is dropped, so use it only when the drive is already "
         "stopped or taken over (emergency stop, drive fault, mode change), never to stop a moving crane. "
