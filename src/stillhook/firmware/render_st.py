@@ -148,5 +148,6 @@ def render_st_files(plan) -> dict[str, str]:
         "interfaces": {b.pou.name: {"inputs": list(b.inputs), "outputs": list(b.outputs)} for b in blocks},
         "operations_per_cycle": {b.key: [dict(c) for c in b.cost] for b in blocks},
     }
+    manifest["cautions"] = list(CAUTIONS)  # added at the output edge, as the C manifest
     files[names["manifest"]] = to_json(manifest)
     return {k: files[k] for k in sorted(files)}
