@@ -200,7 +200,9 @@ def simulate_batch(rigs, speeds_m_s, cycle_s: float, *, rope_length_m=None, hois
         Trolley speed commands (m/s) sampled at cycle_s. With one rig and several commands (or one
         command and several rigs) the single one is used for every run; otherwise run r simulates
         rigs[r] under speeds_m_s[r].
-    cycle_s, rope_length_m, hoist_speed_m_s, settle_s, initial_angles_rad, initial_rates_rad_s
+    settle_s : float > 0 or sequence of float > 0
+        As in :func:`simulate`; one for every run or one per run.
+    cycle_s, rope_length_m, hoist_speed_m_s, initial_angles_rad, initial_rates_rad_s
         As in :func:`simulate`, shared by every run.
     rtol : float > 0
         Relative tolerance; sets the RK4 step (:func:`step_rad_for`).
@@ -213,18 +215,21 @@ def simulate_batch(rigs, speeds_m_s, cycle_s: float, *, rope_length_m=None, hois
         One per run, in order; each equals what :func:`simulate` returns for that run alone.
     """
     Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
-    settle_s = finite_number("settle_s", settle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
     step_rad = step_rad_for(rtol)
     rigs = _as_list("rigs", rigs, Rig)
     cmds = [as_samples("speed_m_s", v) for v in _as_list("speeds_m_s", speeds_m_s, np.ndarray)]
     if len(rigs) != len(cmds) and 1 not in (len(rigs), len(cmds)):
         raise ConfigError(f"{len(rigs)} rigs and {len(cmds)} commands: give one of either or as many of both")
     n_runs = max(len(rigs), len(cmds))
+    if np.ndim(settle_s) == 1 and len(settle_s) not in (1, n_runs):
+        raise ConfigError(f"settle_s has {len(settle_s)} values for {n_runs} runs; allowed: one, or one per run")
+    settles = [finite_number("settle_s", v, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+               for v in np.broadcast_to(np.asarray(settle_s, dtype=object), (n_runs,))]
     hoist = _hoist_input(rope_length_m, hoist_speed_m_s, Ts)
     th0 = [float(v) for v in initial_angles_rad]
     w0 = [float(v) for v in initial_rates_rad_s]
     sub = max(1, math.ceil(Ts / _MAX_OUTPUT_STEP_S - 1e-9))
-    runs = [_setup_run(rigs[r % len(rigs)], r % len(cmds), cmds[r % len(cmds)], hoist, Ts, settle_s, sub)
+    runs = [_setup_run(rigs[r % len(rigs)], r % len(cmds), cmds[r % len(cmds)], hoist, Ts, settles[r], sub)
             for r in range(n_runs)]
     return _integrate(runs, hoist, Ts, sub, step_rad, th0, w0, engine)
 
