@@ -95,6 +95,25 @@ def test_zv_tuned_exactly_leaves_no_residual():
     assert res["zv"][0] < 1e-9 * res["unshaped"][0]
 
 
+def test_chunks_and_worker_processes_do_not_change_the_results(demo_project, monkeypatch):
+    # Streaming over rigs in chunks (bounded memory) and spreading the chunks over processes must give
+    # the very numbers of one pass: chunks are whole blocks of the peak search.
+    from stillhook.study import sweep
+
+    env, T = demo_project.envelope, demo_project.drive["cycle_s"]
+    L, m = random_points(env, 700, seed=5)
+    v = trapezoid(2.0, 0.5, 0.25, T)
+    designs = [SweepDesign("unshaped", "u", 0.0, (v,)), SweepDesign("zv", "zv", 0.0, (zv(0.25).apply(v, T),))]
+    batch = ModalBatch.from_envelope(env, L, m)
+    whole = residuals(batch, designs, T, workers=1)
+    monkeypatch.setattr(sweep, "CHUNK_RIGS", 256)
+    seen = []
+    chunked = residuals(batch, designs, T, workers=2, progress=lambda done, total: seen.append((done, total)))
+    assert seen == [(256, 700), (512, 700), (700, 700)]
+    for key in ("unshaped", "zv"):
+        np.testing.assert_array_equal(whole[key], chunked[key])
+
+
 # -- points ---------------------------------------------------------------------------------------------
 def test_grid_and_random_points_cover_the_envelope(demo_project):
     env = demo_project.envelope

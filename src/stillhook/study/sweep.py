@@ -21,8 +21,11 @@ described in :mod:`stillhook.study.modal_sweep`.
 
 from __future__ import annotations
 
+import contextlib
 import math
+import os
 from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor
 
 import numpy as np
 
@@ -34,8 +37,8 @@ from stillhook.sim.profiles import trapezoid
 from stillhook.study.modal_sweep import AccelRuns, ModalBatch, end_amplitudes, peak_after_end
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
 
-__all__ = ["DESIGN_KEYS", "SpotCheck", "SweepDesign", "SweepResult", "project_designs", "residuals",
-           "spot_checks", "sweep_project"]
+__all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "SpotCheck", "SweepDesign", "SweepResult", "project_designs",
+           "residuals", "spot_checks", "sweep_project", "worker_count"]
 
 #: Designs the sweep knows, in output order.
 DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
@@ -43,8 +46,10 @@ DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
 DEFAULT_GRID = (21, 21)
 #: Default travel distance of the sweep's move (m).
 DEFAULT_DISTANCE_M = 6.0
-#: Largest number of rigs one sweep accepts.
-MAX_RIGS = 200_000
+#: Largest number of rigs one sweep accepts (memory: ~50 bytes per rig and design for points and results).
+MAX_RIGS = 1_000_000
+#: Rigs per chunk: the sweep's working memory is bounded by this (~100 MB at most for a notch command).
+CHUNK_RIGS = 4096
 
 
 # -- designs -------------------------------------------------------------------------------------
@@ -132,25 +137,53 @@ def _check_count(what: str, n: int) -> None:
 
 
 # -- the sweep -----------------------------------------------------------------------------------
-def residuals(batch: ModalBatch, designs, cycle_s: float, *, settle_s: float = SETTLE_WINDOW_S,
-              progress: Callable[[int, int], None] | None = None) -> dict:
-    """Residual payload sway (m) of every rig of ``batch`` under every design: {key: ndarray (R,)}."""
+def worker_count(n_chunks: int) -> int:
+    """Processes for n_chunks chunks of rigs: one per available core, never more than chunks."""
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except AttributeError:  # pragma: no cover - not on Linux
+        cores = os.cpu_count() or 1
+    return max(1, min(cores, n_chunks))
+
+
+def _chunk_residuals(batch: ModalBatch, runs, settle_s: float, rows) -> np.ndarray:
+    """Residual sway (designs, r) of one chunk of rigs; runs[i][row] are design i's AccelRuns."""
     R = batch.size
-    Y = np.zeros((len(designs), R, 2), dtype=complex)
-    for i, d in enumerate(designs):
-        rows = d.rows_for(batch.rope_length_m)
-        for r, cmd in enumerate(d.commands):
-            idx = np.nonzero(rows == r)[0]
+    Y = np.zeros((len(runs), R, 2), dtype=complex)
+    for i, (design_runs, design_rows) in enumerate(zip(runs, rows, strict=True)):
+        for r, acc in enumerate(design_runs):
+            idx = np.nonzero(design_rows == r)[0]
             if idx.size:
-                Y[i, idx] = end_amplitudes(batch.take(idx), AccelRuns.from_speed(cmd, cycle_s))
-    peaks = np.empty((len(designs), R))
-    step = 1024
-    for b0 in range(0, R, step):
-        sl = slice(b0, min(b0 + step, R))
-        peaks[:, sl] = peak_after_end(batch.take(np.arange(sl.start, sl.stop)), Y[:, sl], settle_s)
-        if progress is not None:
-            progress(sl.stop, R)
-    return {d.key: peaks[i] for i, d in enumerate(designs)}
+                Y[i, idx] = end_amplitudes(batch.take(idx), acc)
+    return peak_after_end(batch, Y, settle_s)
+
+
+def residuals(batch: ModalBatch, designs, cycle_s: float, *, settle_s: float = SETTLE_WINDOW_S,
+              progress: Callable[[int, int], None] | None = None, workers: int | None = None) -> dict:
+    """Residual payload sway (m) of every rig of ``batch`` under every design: {key: ndarray (R,)}.
+
+    The rigs are taken CHUNK_RIGS at a time, so the working memory does not grow with the rig count
+    (only the results, 8 bytes per rig and design); chunks run in ``workers`` processes (default one
+    per available core when there are several chunks). Results do not depend on the worker count.
+    """
+    R = batch.size
+    runs = [[AccelRuns.from_speed(cmd, cycle_s) for cmd in d.commands] for d in designs]
+    rows = [d.rows_for(batch.rope_length_m) for d in designs]
+    chunks = [slice(b, min(b + CHUNK_RIGS, R)) for b in range(0, R, CHUNK_RIGS)]
+    n_workers = worker_count(len(chunks)) if workers is None else max(1, min(int(workers), len(chunks)))
+    args = ((batch.take(sl), runs, settle_s, [r[sl] for r in rows]) for sl in chunks)
+    out = np.empty((len(designs), R))
+    with contextlib.ExitStack() as stack:
+        if n_workers > 1:
+            pool = stack.enter_context(ProcessPoolExecutor(n_workers))
+            parts = pool.map(_chunk_residuals, *zip(*args, strict=True))
+        else:
+            parts = (_chunk_residuals(*a) for a in args)
+        for sl, part in zip(chunks, parts, strict=True):
+            out[:, sl] = part
+            if progress is not None:
+                progress(sl.stop, R)
+    return {d.key: out[i] for i, d in enumerate(designs)}
 
 
 #: Designs not re-run on the nonlinear simulator: none since the batch engine runs a notch's long
