@@ -2,7 +2,13 @@
 
 from __future__ import annotations
 
+import os
+
 import pytest
+
+# Every test session designs afresh (the design code is what is under test); tests of the disk cache
+# turn it on in a temporary folder.
+os.environ["STILLHOOK_DESIGN_CACHE"] = "off"
 
 from stillhook.project import load_demo_project
 

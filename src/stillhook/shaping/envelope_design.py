@@ -40,6 +40,7 @@ from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
+from stillhook.shaping.design_cache import load_or_make
 from stillhook.shaping.lookup import row_edges_m, schedule_rows
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
@@ -320,7 +321,7 @@ def _cached(key: str, make):
     if key not in _CACHE:
         if len(_CACHE) >= _CACHE_SIZE:
             _CACHE.pop(next(iter(_CACHE)))
-        _CACHE[key] = make()
+        _CACHE[key] = load_or_make(key, make)  # from the disk cache when this code designed it before
     return _CACHE[key]
 
 
