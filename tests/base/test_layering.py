@@ -14,6 +14,8 @@ from pathlib import Path
 
 import pytest
 
+from tests.paths import REPO_ROOT
+
 PACKAGE = Path(str(resources.files("stillhook")))
 
 #: Stage order, data flow first to last. A module may import its own stage and earlier stages only;
@@ -155,11 +157,8 @@ def test_cli_modules_import_only_light_modules_at_module_level():
 
 
 def test_no_private_name_is_imported_from_another_module():
-    roots = [PACKAGE, PACKAGE.parent.parent / "tests"]
     bad = []
-    for root in roots:
-        if not root.is_dir():
-            continue
+    for root in (PACKAGE, REPO_ROOT / "tests"):
         for path in root.rglob("*.py"):
             for t, line, _inner, names in imports_of(path):
                 private = [n for n in names if n.startswith("_") and not n.startswith("__")]
