@@ -8,9 +8,10 @@
  * Run r: rig constants par[5r .. 5r+4] = m1, m2, L2, g, zeta; single[r] selects the single-
  * pendulum equations; n_rk[r] RK4 steps per cycle (a multiple of sub); the state is recorded
  * every n_rk[r] / sub steps (sub output samples per cycle) into Y[4 (out_off[r] + j)], j < n_out[r].
- * Trolley acceleration over cycle k: tr_a[tr_off[r] + k], k < tr_n[r]; rope length, rate and
- * acceleration at the start of cycle k: ho_L, ho_v, ho_a at ho_off[r] + k, k < ho_n[r]. Past the
- * end of a table its last cycle is held. y0[4r ..] = theta1, theta2, theta1', theta2'.
+ * Trolley acceleration over cycle k: tr_a[tr_off[r] + k], k < tr_n[r]; rope length ho_L0[r] + ho_L,
+ * rate ho_v and acceleration ho_a at the start of cycle k at ho_off[r] + k, k < ho_n[r] (the tables
+ * hold the change from the start, shared by runs of different start lengths). Past the end of a
+ * table its last cycle is held. y0[4r ..] = theta1, theta2, theta1', theta2'.
  *
  * Floating point: build with -O2 -ffp-contract=off and without -ffast-math, so that the result
  * does not depend on the optimizer fusing multiply-adds.
@@ -31,7 +32,7 @@ static void shk_rhs(int64_t single, const double *y, double a, double L1, double
 
 void shk_sim_batch(int64_t n_runs, double cycle_s, int64_t sub, const double *par, const int64_t *single,
                    const int64_t *n_rk, const int64_t *n_out, const int64_t *out_off,
-                   const double *tr_a, const int64_t *tr_off, const int64_t *tr_n,
+                   const double *tr_a, const int64_t *tr_off, const int64_t *tr_n, const double *ho_L0,
                    const double *ho_L, const double *ho_v, const double *ho_a, const int64_t *ho_off,
                    const int64_t *ho_n, const double *y0, double *Y)
 {
@@ -56,7 +57,7 @@ void shk_sim_batch(int64_t n_runs, double cycle_s, int64_t sub, const double *pa
             const int64_t k = s / nrk;
             const int64_t kt = tr_off[r] + (k < tr_n[r] ? k : tr_n[r] - 1);
             const int64_t kh = ho_off[r] + (k < ho_n[r] ? k : ho_n[r] - 1);
-            const double a = tr_a[kt], L = ho_L[kh], u = ho_v[kh], al = ho_a[kh];
+            const double a = tr_a[kt], L = ho_L0[r] + ho_L[kh], u = ho_v[kh], al = ho_a[kh];
             const double tau0 = (double)(s % nrk) * h, tau1 = tau0 + 0.5 * h, tau2 = tau0 + h;
             shk_rhs(single[r], y, a, L + u * tau0 + 0.5 * al * tau0 * tau0, u + al * tau0, al, p, k1);
             for (int i = 0; i < 4; ++i) {

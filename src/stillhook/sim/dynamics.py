@@ -163,13 +163,16 @@ def _as_list(name: str, values, kind) -> list:
     return out
 
 
-def _steps_per_cycle(rig: Rig, L_min: float, Ts: float, sub: int, step_rad: float) -> int:
-    m1, m2, L2, g = rig.hook_mass_kg, rig.payload_mass_kg, rig.rigging_length_m, rig.gravity_m_s2
-    if rig.is_single_pendulum:
-        omega = math.sqrt(g / L_min)
-    else:
-        omega = float(mode_frequencies_rad_s(m1, m2, L_min, L2, g)[1])
-    return sub * max(1, math.ceil(Ts * _OMEGA_HEADROOM * omega / (step_rad * sub) - 1e-9))
+def _steps_per_cycle(par: np.ndarray, single: np.ndarray, L_min: np.ndarray, Ts: float, sub: int,
+                     step_rad: float) -> np.ndarray:
+    """RK4 steps per cycle of each run: w_max h <= step_rad, w_max the highest mode at the shortest rope."""
+    m1, m2, L2, g = par[:, 0], par[:, 1], par[:, 2], par[:, 3]
+    omega = np.sqrt(g / L_min)  # single pendulum
+    for g_value in np.unique(g[single == 0]):
+        k = (single == 0) & (g == g_value)
+        omega[k] = mode_frequencies_rad_s(m1[k], m2[k], L_min[k], L2[k], g_value)[:, 1]
+    n = np.ceil(Ts * _OMEGA_HEADROOM * omega / (step_rad * sub) - 1e-9).astype(np.int64)
+    return sub * np.maximum(1, n)
 
 
 class _Tables:
@@ -229,8 +232,9 @@ def simulate_batch(rigs, speeds_m_s, cycle_s: float, *, rope_length_m=None, hois
     th0 = [float(v) for v in initial_angles_rad]
     w0 = [float(v) for v in initial_rates_rad_s]
     sub = max(1, math.ceil(Ts / _MAX_OUTPUT_STEP_S - 1e-9))
-    runs = [_setup_run(rigs[r % len(rigs)], r % len(cmds), cmds[r % len(cmds)], hoist, Ts, settles[r], sub)
-            for r in range(n_runs)]
+    ends = [command_end_index(c) for c in cmds]
+    runs = [_setup_run(rigs[r % len(rigs)], r % len(cmds), cmds[r % len(cmds)], ends[r % len(cmds)], hoist, Ts,
+                       settles[r], sub) for r in range(n_runs)]
     return _integrate(runs, hoist, Ts, sub, step_rad, th0, w0, engine)
 
 
@@ -249,55 +253,57 @@ def _hoist_input(rope_length_m, hoist_speed_m_s, Ts: float):
     return "still", None, 0
 
 
-def _setup_run(rig: Rig, cmd_index: int, cmd: np.ndarray, hoist, Ts: float, settle_s: float, sub: int) -> dict:
+def _setup_run(rig: Rig, cmd_index: int, cmd: np.ndarray, cmd_end: int, hoist, Ts: float, settle_s: float,
+               sub: int) -> dict:
     kind, samples, hoist_end = hoist
     if kind == "lengths" and abs(samples[0] - rig.rope_length_m) > 1e-9:
         rig = Rig(rig.hook_mass_kg, rig.payload_mass_kg, float(samples[0]), rig.rigging_length_m,
                   rig.gravity_m_s2, rig.damping_ratio)
-    command_end_s = max(command_end_index(cmd), hoist_end) * Ts
+    command_end_s = max(cmd_end, hoist_end) * Ts
     t_final = command_end_s + settle_s
     dt_out = Ts / sub
     return {"rig": rig, "cmd_index": cmd_index, "cmd": cmd, "n": cycles_needed(t_final, Ts),
             "n_out": math.floor(t_final / dt_out + 1e-9) + 1, "command_end_s": command_end_s, "settle_s": settle_s}
 
 
-def _hoist_track(hoist, L0: float, Ts: float, n: int) -> Track:
+def _hoist_track(hoist, Ts: float, n: int) -> Track:
+    """Rope length change from its start (m): one table per command, shared by every rig's start length."""
     kind, samples, _ = hoist
     if kind == "lengths":
-        return Track.from_positions(samples, Ts, n)
+        return Track.from_positions(samples - samples[0], Ts, n)
     if kind == "speed":
-        return Track.from_speed(samples, L0, Ts, n)
-    return Track.still(L0, Ts, n)
+        return Track.from_speed(samples, 0.0, Ts, n)
+    return Track.still(0.0, Ts, n)
 
 
 def _integrate(runs, hoist, Ts, sub, step_rad, th0, w0, engine) -> list[SimResult]:
     trolley, rope = _Tables(), _Tables()
-    tr_i, ho_i, n_rk = [], [], []
+    tr_i, ho_i, L_min = [], [], []
     for run in runs:
         rig, n = run["rig"], run["n"]
         tr_i.append(trolley.add((run["cmd_index"], n), lambda run=run: Track.from_speed(run["cmd"], 0.0, Ts, run["n"])))
-        ho_i.append(rope.add((rig.rope_length_m, n), lambda L0=rig.rope_length_m, n=n: _hoist_track(hoist, L0, Ts, n)))
+        ho_i.append(rope.add(n, lambda n=n: _hoist_track(hoist, Ts, n)))
         if ho_i[-1] not in rope.lowest:
             rope.lowest[ho_i[-1]] = rope.tracks[ho_i[-1]].min_m()
-        L_min = rope.lowest[ho_i[-1]]
-        if L_min <= MIN_ROPE_LENGTH_M:
+        L_min.append(rig.rope_length_m + rope.lowest[ho_i[-1]])
+        if L_min[-1] <= MIN_ROPE_LENGTH_M:
             raise ConfigError(f"the hoist command shortens the rope to <= {MIN_ROPE_LENGTH_M} m; "
                               f"allowed: L1 > {MIN_ROPE_LENGTH_M} m throughout")
-        n_rk.append(_steps_per_cycle(rig, L_min, Ts, sub, step_rad))
     rigs = [run["rig"] for run in runs]
     single = np.array([rig.is_single_pendulum for rig in rigs], dtype=np.int64)
+    par = np.array([[r.hook_mass_kg, r.payload_mass_kg, r.rigging_length_m, r.gravity_m_s2, r.damping_ratio]
+                    for r in rigs])
     y0 = np.array([[th0[0], th0[0] if s else th0[1], w0[0], w0[0] if s else w0[1]] for s in single])
     tr_tracks = [trolley.tracks[i] for i in tr_i]
     ho_tracks = [rope.tracks[i] for i in ho_i]
     plan = StepPlan(
         cycle_s=Ts, sub=sub,
-        par=np.array([[r.hook_mass_kg, r.payload_mass_kg, r.rigging_length_m, r.gravity_m_s2, r.damping_ratio]
-                      for r in rigs]),
-        single=single, n_rk=np.array(n_rk, dtype=np.int64),
+        par=par, single=single, n_rk=_steps_per_cycle(par, single, np.array(L_min), Ts, sub, step_rad),
         n_out=np.array([run["n_out"] for run in runs], dtype=np.int64),
         tr_a=np.concatenate([t.accel_m_s2 for t in trolley.tracks]),
         tr_off=np.array([trolley.offsets[i] for i in tr_i], dtype=np.int64),
         tr_n=np.array([len(t.accel_m_s2) for t in tr_tracks], dtype=np.int64),
+        ho_L0=np.array([r.rope_length_m for r in rigs]),
         ho_L=np.concatenate([t.start_m[:-1] for t in rope.tracks]),
         ho_v=np.concatenate([t.speed_m_s[:-1] for t in rope.tracks]),
         ho_a=np.concatenate([t.accel_m_s2 for t in rope.tracks]),
@@ -305,18 +311,34 @@ def _integrate(runs, hoist, Ts, sub, step_rad, th0, w0, engine) -> list[SimResul
         ho_n=np.array([len(t.accel_m_s2) for t in ho_tracks], dtype=np.int64),
         y0=y0)
     Y, _ = run_steps(plan, engine)
+    shared: dict = {}
     out = []
     for r, run in enumerate(runs):
         row = int(plan.out_off[r])
-        out.append(_result(run, Y[row:row + run["n_out"]], tr_tracks[r], ho_tracks[r], Ts / sub))
+        out.append(_result(run, Y[row:row + run["n_out"]], (tr_i[r], tr_tracks[r]), (ho_i[r], ho_tracks[r]),
+                           Ts / sub, shared))
     return out
 
 
-def _result(run: dict, Y: np.ndarray, trolley: Track, rope: Track, dt_out: float) -> SimResult:
-    rig = run["rig"]
-    t_out = np.arange(run["n_out"]) * dt_out
-    x_t, v_t = trolley.at(t_out)
-    L_t, u_t = rope.at(t_out)
+def _read_only(*arrays):
+    for a in arrays:
+        a.flags.writeable = False
+    return arrays
+
+
+def _result(run: dict, Y: np.ndarray, trolley, rope, dt_out: float, shared: dict) -> SimResult:
+    """SimResult of one run; time, trolley and rope-change series are shared (read-only) between runs."""
+    rig, n_out = run["rig"], run["n_out"]
+    if ("t", n_out) not in shared:
+        shared["t", n_out] = _read_only(np.arange(n_out) * dt_out)[0]
+    t_out = shared["t", n_out]
+    if ("trolley", trolley[0], n_out) not in shared:
+        shared["trolley", trolley[0], n_out] = _read_only(*trolley[1].at(t_out))
+    if ("rope", rope[0], n_out) not in shared:
+        shared["rope", rope[0], n_out] = _read_only(*rope[1].at(t_out))
+    x_t, v_t = shared["trolley", trolley[0], n_out]
+    dL_t, u_t = shared["rope", rope[0], n_out]
+    L_t = rig.rope_length_m + dL_t
     th1, th2 = Y[:, 0], Y[:, 1]
     hook = L_t * np.sin(th1)
     L2, single = rig.rigging_length_m, rig.is_single_pendulum

@@ -40,7 +40,7 @@ __all__ = ["CDEF", "FLAGS", "cache_dir", "compiler_command", "kernel_source", "k
 CDEF = """
 void shk_sim_batch(int64_t n_runs, double cycle_s, int64_t sub, const double *par, const int64_t *single,
                    const int64_t *n_rk, const int64_t *n_out, const int64_t *out_off,
-                   const double *tr_a, const int64_t *tr_off, const int64_t *tr_n,
+                   const double *tr_a, const int64_t *tr_off, const int64_t *tr_n, const double *ho_L0,
                    const double *ho_L, const double *ho_v, const double *ho_a, const int64_t *ho_off,
                    const int64_t *ho_n, const double *y0, double *Y);
 """

@@ -53,7 +53,9 @@ class StepPlan:
     n_out : ndarray of int64, shape (R,)
         Output samples per run (the first at t = 0).
     tr_a, tr_off, tr_n : trolley acceleration tables (m/s^2), each run's offset and cycle count
-    ho_L, ho_v, ho_a, ho_off, ho_n : rope length (m), rate (m/s), acceleration (m/s^2) at cycle starts
+    ho_L0 : ndarray, shape (R,)
+        Each run's rope length at t = 0 (m), added to its rope table.
+    ho_L, ho_v, ho_a, ho_off, ho_n : rope length change (m), rate (m/s), acceleration (m/s^2) at cycle starts
     y0 : ndarray, shape (R, 4)
         Initial theta1, theta2 (rad), theta1', theta2' (rad/s).
     """
@@ -67,6 +69,7 @@ class StepPlan:
     tr_a: np.ndarray
     tr_off: np.ndarray
     tr_n: np.ndarray
+    ho_L0: np.ndarray
     ho_L: np.ndarray
     ho_v: np.ndarray
     ho_a: np.ndarray
@@ -91,6 +94,7 @@ def _numpy_group(plan: StepPlan, idx: np.ndarray, Y: np.ndarray) -> None:
     out_row = plan.out_off[idx]
     tr_off, tr_last = plan.tr_off[idx], plan.tr_n[idx] - 1
     ho_off, ho_last = plan.ho_off[idx], plan.ho_n[idx] - 1
+    L0 = plan.ho_L0[idx]
     y = [plan.y0[idx, i].copy() for i in range(4)]
     steps = int((n_out.max() - 1) * stride)
 
@@ -107,7 +111,7 @@ def _numpy_group(plan: StepPlan, idx: np.ndarray, Y: np.ndarray) -> None:
         k = s // nrk
         kt = tr_off + np.minimum(k, tr_last)
         kh = ho_off + np.minimum(k, ho_last)
-        a, L, u, al = plan.tr_a[kt], plan.ho_L[kh], plan.ho_v[kh], plan.ho_a[kh]
+        a, L, u, al = plan.tr_a[kt], L0 + plan.ho_L[kh], plan.ho_v[kh], plan.ho_a[kh]
         tau0 = float(s % nrk) * h
         tau1, tau2 = tau0 + 0.5 * h, tau0 + h
         k1 = rhs(y, a, L, u, al, tau0)
@@ -137,7 +141,7 @@ def _run_compiled(plan: StepPlan, kernel) -> np.ndarray:
 
     lib.shk_sim_batch(len(plan.n_rk), plan.cycle_s, plan.sub, d(plan.par), i(plan.single), i(plan.n_rk),
                       i(plan.n_out), i(plan.out_off), d(plan.tr_a), i(plan.tr_off), i(plan.tr_n),
-                      d(plan.ho_L), d(plan.ho_v), d(plan.ho_a), i(plan.ho_off), i(plan.ho_n), d(plan.y0),
+                      d(plan.ho_L0), d(plan.ho_L), d(plan.ho_v), d(plan.ho_a), i(plan.ho_off), i(plan.ho_n), d(plan.y0),
                       ffi.from_buffer("double[]", Y, require_writable=True))
     return Y
 
