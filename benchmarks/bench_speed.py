@@ -14,6 +14,9 @@ Figures (all on the demo project unless named):
    simulation of the demo move measured in the same run; targets <= 10x, 30x, 25x, 250x;
 4. optionally (``--million``) a 10^6-rig random sweep: wall time and peak memory.
 
+Every command runs cold (``STILLHOOK_DESIGN_CACHE=off``: the design is computed); ``compare`` and
+``demo`` are also timed with the design in the disk cache, as a user's second command finds it.
+
 Run: ``python benchmarks/bench_speed.py`` (a few minutes on 2 cores; ``--skip-hard`` leaves out the
 hard envelope's design, about a minute).
 """
@@ -125,9 +128,13 @@ class Floor:
         return best_of(lambda: self.lib.floor_rk4(n_cycles, n_rk, T, *args, buf), repeats)
 
 
-def process_s(argv: list[str]) -> float:
+#: Subprocesses design afresh (cold) unless a run asks for the design disk cache (warm).
+COLD = dict(os.environ, STILLHOOK_DESIGN_CACHE="off")
+
+
+def process_s(argv: list[str], env: dict | None = None) -> float:
     t0 = time.perf_counter()
-    subprocess.run([sys.executable, "-m", "stillhook", *argv], check=True, capture_output=True)
+    subprocess.run([sys.executable, "-m", "stillhook", *argv], check=True, capture_output=True, env=env or COLD)
     return time.perf_counter() - t0
 
 
@@ -181,7 +188,8 @@ def sweep_figures(project) -> None:
     code = ("import time; from stillhook.project import load_demo_project; from stillhook.shaping.envelope_design "
             "import design_for_project; p = load_demo_project(); t = time.perf_counter(); design_for_project(p); "
             "print(time.perf_counter() - t)")
-    t_design = float(subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True).stdout)
+    t_design = float(subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True,
+                                    env=COLD).stdout)
     print(f"sweep as a whole process (design, spot checks, sweep) vs a per-rig solve_ivp loop (design {t_design:.2f} s "
           "included on both sides):")
     for n_side, target in ((16, 30), (32, 100)):
@@ -213,15 +221,22 @@ def command_figures(t_ref: float, hard: bool) -> None:
         for name, argv, target in cases:
             t = process_s(argv)
             row(f"{name} ({t:.2f} s)", t / t_ref, "x", f"<= {target}", t / t_ref <= target)
+        # the same commands once the project's design is in the disk cache (a user's second command)
+        warm = dict(os.environ, STILLHOOK_DESIGN_CACHE="on", STILLHOOK_CACHE_DIR=os.path.join(tmp, "cache"))
+        for name, argv, target in cases[:2]:
+            process_s(argv, warm)
+            t = process_s(argv, warm)
+            row(f"{name}, design cached ({t:.2f} s)", t / t_ref, "x", f"<= {target}", t / t_ref <= target)
 
 
 def million_figure() -> None:
-    code = ("import resource, time; from stillhook.project import load_demo_project; "
+    code = ("import resource, time; from stillhook.project import load_demo_project; "  # design cold (COLD)
             "from stillhook.study.sweep import sweep_project; p = load_demo_project(); t = time.perf_counter(); "
             "r = sweep_project(p, samples=1_000_000, keys=('unshaped', 'shaper'), check=False); "
             "print(time.perf_counter() - t, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, "
             "resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)")
-    out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True).stdout.split()
+    out = subprocess.run([sys.executable, "-c", code], check=True, capture_output=True, text=True,
+                         env=COLD).stdout.split()
     t, rss_self, rss_child = float(out[0]), int(out[1]) / 1024, int(out[2]) / 1024
     print("random sweep of 10^6 rigs (unshaped, shaper), design included:")
     row("wall time", t, "s", "", None)
