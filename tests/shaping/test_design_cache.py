@@ -1,47 +1,45 @@
-"""Designs on disk: made once, then loaded; unreadable files replaced; off when asked."""
+"""The one design cache: bounded shelves, cleared by one public call, used by the band design."""
 
-from stillhook.shaping import design_cache
-from stillhook.shaping.closed_forms import zvd
+from __future__ import annotations
 
+import pytest
 
-def _maker(calls):
-    def make():
-        calls.append(1)
-        return {"shaper": zvd(0.4), "note": "made"}
-    return make
+from stillhook.shaping.band_design import band_shaper
+from stillhook.shaping.design_cache import DESIGN_CACHE, DesignCache, clear_design_caches
 
 
-def test_a_design_is_made_once_then_loaded(monkeypatch, tmp_path):
-    monkeypatch.setenv("STILLHOOK_DESIGN_CACHE", "on")
-    monkeypatch.setenv("STILLHOOK_CACHE_DIR", str(tmp_path))
+def test_shelf_keeps_at_most_its_size_oldest_dropped_first():
+    cache = DesignCache({"a": 2})
     calls = []
-    first = design_cache.load_or_make("design{project}", _maker(calls))
-    second = design_cache.load_or_make("design{project}", _maker(calls))
-    assert calls == [1]
-    assert second["shaper"] == first["shaper"] and second["note"] == "made"
-    path = design_cache.design_cache_path("design{project}")
-    assert path.is_file() and [p.name for p in path.parent.iterdir()] == [path.name]  # no temporary left
-    # another key (other inputs) is another file
-    assert design_cache.design_cache_path("design{other}") != path
+    for key in (1, 2, 1, 3):
+        cache.get("a", key, lambda key=key: calls.append(key) or key * 10)
+    assert calls == [1, 2, 3]  # 1 served from the shelf the second time
+    assert cache.sizes() == {"a": 2}
+    assert cache.lookup("a", 1) is None and cache.lookup("a", 3) == 30  # 1 was the oldest
+    cache.clear("a")
+    assert cache.sizes() == {"a": 0}
 
 
-def test_an_unreadable_file_is_replaced(monkeypatch, tmp_path):
-    monkeypatch.setenv("STILLHOOK_DESIGN_CACHE", "on")
-    monkeypatch.setenv("STILLHOOK_CACHE_DIR", str(tmp_path))
-    path = design_cache.design_cache_path("k")
-    path.parent.mkdir(parents=True)
-    path.write_bytes(b"not a pickle")
-    calls = []
-    assert design_cache.load_or_make("k", _maker(calls))["note"] == "made"
-    assert calls == [1]
-    assert design_cache.load_or_make("k", _maker(calls))["note"] == "made"
-    assert calls == [1]
+def test_emptied_designs_afresh_and_puts_the_cache_back():
+    cache = DesignCache({"a": 4})
+    cache.get("a", 1, lambda: "kept")
+    with cache.emptied():
+        assert cache.sizes() == {"a": 0}
+        assert cache.get("a", 1, lambda: "fresh") == "fresh"
+    assert cache.lookup("a", 1) == "kept"
 
 
-def test_the_cache_can_be_turned_off(monkeypatch, tmp_path):
-    monkeypatch.setenv("STILLHOOK_DESIGN_CACHE", "off")
-    monkeypatch.setenv("STILLHOOK_CACHE_DIR", str(tmp_path))
-    calls = []
-    design_cache.load_or_make("k", _maker(calls))
-    design_cache.load_or_make("k", _maker(calls))
-    assert calls == [1, 1] and list(tmp_path.iterdir()) == []
+def test_unknown_shelf_is_a_key_error():
+    with pytest.raises(KeyError):
+        DesignCache({"a": 1}).get("b", 0, lambda: 0)
+
+
+def test_band_design_is_cached_and_cleared():
+    with DESIGN_CACHE.emptied():  # the session's cached designs come back after the test
+        first = band_shaper(0.2, 0.3, 0.05)
+        assert DESIGN_CACHE.sizes()["band_design"] == 1
+        assert band_shaper(0.2, 0.3, 0.05) is first  # same inputs, the stored shaper
+        clear_design_caches()
+        assert sum(DESIGN_CACHE.sizes().values()) == 0
+        again = band_shaper(0.2, 0.3, 0.05)
+        assert again is not first and again.duration_s == first.duration_s

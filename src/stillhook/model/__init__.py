@@ -7,6 +7,8 @@ from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
     "Envelope": "stillhook.model.envelope",
+    "BatchModes": "stillhook.model.modal_batch",
+    "batch_modes": "stillhook.model.modal_batch",
     "Mode": "stillhook.model.rig",
     "Rig": "stillhook.model.rig",
     "mode_frequencies_rad_s": "stillhook.model.rig",

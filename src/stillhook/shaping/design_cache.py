@@ -1,74 +1,98 @@
-"""Designs kept on disk between runs: every command after the first reuses the project's design.
+"""The one process-wide cache of shaper designs, with a public way to empty it.
 
-``shaper``, ``compare``, ``sweep``, ``emit``, ``report`` and ``demo`` each need the same design of
-a project, and a design costs seconds (hundreds of LPs). A finished design is pickled into
-``<cache>/designs/<sha256>.pickle`` (``<cache>`` as for the simulator kernel:
-``$STILLHOOK_CACHE_DIR`` or ``~/.cache/stillhook``), keyed by the SHA-256 of the design inputs
-(envelope, drive and design sections, canonical JSON), every source file of the installed
-stillhook package, and the numpy and scipy versions: a change to any of them designs afresh, so a
-cached design is always the design this code would compute. Files are written to a temporary
-name and renamed into place; an unreadable file is ignored and replaced.
-``STILLHOOK_DESIGN_CACHE=off`` turns the disk cache off.
+Designing a band shaper or a project's schedule takes seconds (linear programs); the same inputs
+give the same shaper, so recent results are kept. Every memo of the shaping stage lives in the one
+:data:`DESIGN_CACHE`, split into named shelves each holding at most a fixed number of entries
+(oldest dropped first):
+
+========================  ====================================================  =========
+shelf                     what                                                  entries
+========================  ====================================================  =========
+``unit_form``             closed forms designed for 1 Hz (scaled to any f0)     256
+``family_region``         a closed form's insensitive region at 1 Hz            256
+``undamped_start``        start of the damped EI-family continuation            64
+``band_design``           band / multi-band shaper designs                      64
+``project_design``        a project's design and schedule                       32
+========================  ====================================================  =========
+
+:func:`clear_design_caches` empties every shelf (or the named ones), e.g. so a benchmark really
+designs again; ``with DESIGN_CACHE.emptied():`` designs afresh inside the block and puts the cache back
+after it (tests). Cached values are shared: callers must not mutate them (shapers are frozen).
 """
 
 from __future__ import annotations
 
-import contextlib
-import hashlib
-import os
-import pickle
-import tempfile
-from importlib import resources
-from pathlib import Path
+from collections.abc import Callable, Hashable, Iterator
+from contextlib import contextmanager
+from typing import Any
 
-import numpy as np
-import scipy
-
-from stillhook.sim.kernel import cache_dir
-
-__all__ = ["code_identity", "design_cache_path", "load_or_make"]
-
-_IDENTITY: list[str] = []
+__all__ = ["DESIGN_CACHE", "DesignCache", "clear_design_caches"]
 
 
-def code_identity() -> str:
-    """SHA-256 over the package's source files (path and bytes, sorted) and the numpy/scipy versions."""
-    if not _IDENTITY:
-        h = hashlib.sha256(f"numpy {np.__version__} scipy {scipy.__version__}".encode())
-        root = Path(str(resources.files("stillhook")))
-        for path in sorted(root.rglob("*.py")):
-            h.update(str(path.relative_to(root)).encode())
-            h.update(path.read_bytes())
-        _IDENTITY.append(h.hexdigest())
-    return _IDENTITY[0]
+class DesignCache:
+    """Named shelves of recent results, each bounded (first in, first out).
 
+    Parameters
+    ----------
+    shelf_sizes : dict of str to int > 0
+        Shelf name -> most entries it keeps.
+    """
 
-def design_cache_path(key: str) -> Path | None:
-    """Cache file of the design with in-process key ``key``; None when the disk cache is off."""
-    if os.environ.get("STILLHOOK_DESIGN_CACHE", "").lower() == "off":
-        return None
-    digest = hashlib.sha256((code_identity() + "\0" + key).encode()).hexdigest()
-    return cache_dir() / "designs" / f"{digest}.pickle"
+    def __init__(self, shelf_sizes: dict[str, int]) -> None:
+        self._sizes = dict(shelf_sizes)
+        self._shelves: dict[str, dict[Hashable, Any]] = {name: {} for name in self._sizes}
 
+    def get(self, shelf: str, key: Hashable, make: Callable[[], Any]) -> Any:
+        """The value stored under ``key`` on ``shelf``; ``make()`` computes and stores it when absent."""
+        entries = self._shelves[shelf]
+        if key not in entries:
+            self.put(shelf, key, make())
+        return entries[key]
 
-def load_or_make(key: str, make):
-    """The cached design for ``key``, or ``make()`` stored for next time."""
-    path = design_cache_path(key)
-    if path is not None and path.is_file():
+    def lookup(self, shelf: str, key: Hashable) -> Any | None:
+        """The stored value, or None."""
+        return self._shelves[shelf].get(key)
+
+    def put(self, shelf: str, key: Hashable, value: Any) -> None:
+        """Store ``value``, dropping the oldest entry when the shelf is full."""
+        entries = self._shelves[shelf]
+        if key not in entries and len(entries) >= self._sizes[shelf]:
+            entries.pop(next(iter(entries)))
+        entries[key] = value
+
+    def sizes(self) -> dict[str, int]:
+        """Entries held per shelf."""
+        return {name: len(entries) for name, entries in self._shelves.items()}
+
+    @contextmanager
+    def emptied(self) -> Iterator[DesignCache]:
+        """Every shelf empty inside the ``with`` block and as it was after it (to design afresh once)."""
+        saved = {name: dict(entries) for name, entries in self._shelves.items()}
+        self.clear()
         try:
-            with open(path, "rb") as f:
-                return pickle.load(f)
-        except (OSError, EOFError, pickle.UnpicklingError, AttributeError, ImportError, TypeError):
-            pass  # unreadable or from an incompatible object layout: design afresh and replace it
-    value = make()
-    if path is not None:
-        try:
-            path.parent.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(dir=path.parent, suffix=".tmp")
-            with os.fdopen(fd, "wb") as f:
-                pickle.dump(value, f, protocol=pickle.HIGHEST_PROTOCOL)
-            os.replace(tmp, path)
-        except OSError:  # a read-only or full cache folder only costs the next run the design time
-            with contextlib.suppress(OSError, NameError):
-                os.unlink(tmp)
-    return value
+            yield self
+        finally:
+            for name, entries in saved.items():
+                self._shelves[name].clear()
+                self._shelves[name].update(entries)
+
+    def clear(self, *shelves: str) -> None:
+        """Empty the named shelves (every shelf when none is named)."""
+        for name in shelves or tuple(self._shelves):
+            self._shelves[name].clear()
+
+
+#: The shaping stage's cache (see the module docstring for the shelves).
+DESIGN_CACHE = DesignCache({"unit_form": 256, "family_region": 256, "undamped_start": 64,
+                            "band_design": 64, "project_design": 32})
+
+
+def clear_design_caches(*shelves: str) -> None:
+    """Forget cached designs, so the next call designs again (tests, benchmarks, long sessions).
+
+    Parameters
+    ----------
+    *shelves : str
+        Shelves to empty (module docstring); none given: all of them.
+    """
+    DESIGN_CACHE.clear(*shelves)

@@ -6,6 +6,11 @@ Every name below is loaded from its module on first use (see :mod:`stillhook.laz
 from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
+    "CommandFilter": "stillhook.sim.command_filter",
+    "check_below_half_rate": "stillhook.sim.drive_rate",
+    "half_rate_hz": "stillhook.sim.drive_rate",
+    "Unfiltered": "stillhook.sim.command_filter",
+    "UNFILTERED": "stillhook.sim.command_filter",
     "SimResult": "stillhook.sim.dynamics",
     "time_within_s": "stillhook.sim.dynamics",
     "simulate": "stillhook.sim.dynamics",
