@@ -133,8 +133,8 @@ LIMITS: dict[str, Limit] = {
     "rope_length_lsb_m": Limit("m", 1e-6, 1.0, reason="metres per count of the rope-length input"),
     "max_notch_shift_pct": Limit("%", 0.0, 50.0, lo_ok=False, reason="largest notch shift rounding may cause"),
     # study
-    "grid_points": Limit("points", 1, 201, integer=True, reason="rigs per envelope axis; 201 x 201 at most"),
-    "random_rigs": Limit("rigs", 1, 40401, integer=True, reason="as many rigs as the largest grid"),
+    "grid_points": Limit("points", 1, 1000, integer=True, reason="rigs per envelope axis; 1000 x 1000 at most"),
+    "random_rigs": Limit("rigs", 1, 1_000_000, integer=True, reason="as many rigs as the largest grid"),
     "seed": Limit("", 0, 2**32 - 1, integer=True, reason="random seed"),
     "window_s": Limit("s", 0.0, 1e6, reason="a time in the log, from its start"),
     "settle_s": Limit("s", 0.0, 600.0, lo_ok=False, reason="window after the move in which sway is measured"),
@@ -161,8 +161,8 @@ for _alias, _quantity in (("nominal_rope_length_m", "rope_length_m"), ("nominal_
 MAX_MOVE_SAMPLES = 400_000
 #: Samples of one simulation (command, filter ring-out and settle window) at most: ~160 MB of recording.
 MAX_SIM_SAMPLES = 2_000_000
-#: Rigs of one envelope sweep at most (201 x 201).
-MAX_SWEEP_RIGS = 201 * 201
+#: Rigs of one envelope sweep at most (the sweep streams them in chunks, so memory stays bounded; time grows).
+MAX_SWEEP_RIGS = 1_000_000
 
 
 def check_quantity(quantity: str, value, *, name: str | None = None, error: type[Exception] = ConfigError):

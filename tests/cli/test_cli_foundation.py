@@ -52,7 +52,7 @@ def test_simulate_writes_csv_and_plot(tmp_path, capsys, minimal_project_file):
     (["simulate", "demo", "--distance-m", "1e6"], "--distance-m = 1000000.0 is too large; allowed: at most 1000 m"),
     (["modes", "--hook-mass-kg", "1e-9", "--payload-mass-kg", "100", "--rope-length-m", "5",
       "--rigging-length-m", "2"], "--hook-mass-kg = 1e-09 is too small; allowed: at least 1 kg"),
-    (["sweep", "demo", "--grid", "1000", "1000"], "--grid = 1000 is too large; allowed: at most 201"),
+    (["sweep", "demo", "--grid", "1001", "5"], "--grid = 1001 is too large; allowed: at most 1000"),
     (["emit", "demo", "--out", "never_written", "--prefix", "shk"], "--prefix = 'shk' collides"),
     (["emit", "demo", "--out", "never_written", "--prefix", "_Bool"], "--prefix = '_Bool' is not allowed"),
     (["emit", "demo", "--out", "never_written", "--prefix", "int"], "--prefix = 'int' is not allowed"),

@@ -21,7 +21,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
     add_out_arguments(p, required=False, default=_DEFAULT_OUT, what="report.html and firmware/ go here")
     add_quantity_option(p, "--grid", "grid_points", "envelope sweep grid, rope lengths x payload masses "
-                        "(default 21 21, at most 201 each)", nargs=2, metavar=("NL", "NM"))
+                        "(default 21 21, at most 1000 each)", nargs=2, metavar=("NL", "NM"))
     p.add_argument("--no-selftest", action="store_true",
                    help="do not compile and run the emitted C self-test")
     add_json_argument(p)

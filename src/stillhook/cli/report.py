@@ -26,7 +26,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
     add_out_arguments(p, required=True, what="the report folder")
     add_quantity_option(p, "--grid", "grid_points", "envelope sweep grid, rope lengths x payload masses "
-                        "(default 21 21, at most 201 each)", nargs=2, metavar=("NL", "NM"))
+                        "(default 21 21, at most 1000 each)", nargs=2, metavar=("NL", "NM"))
     add_quantity_option(p, "--distance-m", "distance_m", "travel distance of the envelope sweep's move (m, "
                         "default: [move] distance_m); the comparison uses the project's own move")
     p.add_argument("--no-check", action="store_true",

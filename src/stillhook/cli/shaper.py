@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 
 from stillhook.cli._common import (
     add_json_argument,
@@ -122,14 +123,30 @@ def _print_request(out: dict) -> None:
         _print_impulses(dc["impulses"])
 
 
+def _design_progress(project):
+    """Say the work up front, then draw a one-line bar on stderr as the design's stages finish."""
+    from stillhook.shaping.envelope_design import schedule_row_count
+
+    rows = schedule_row_count(project)
+    sys.stderr.write(f"shaper: designing the envelope shaper{f' and {rows} schedule rows' if rows else ''} ...\n")
+
+    def draw(done: int, total: int) -> None:
+        filled = int(30 * done / max(total, 1))
+        sys.stderr.write(f"\rdesign [{'#' * filled}{'.' * (30 - filled)}] {done}/{total} stages")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+    return draw
+
+
 def _run_project(args) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.shaping.envelope_design import design_for_project
     from stillhook.study.move_check import check_design_on_move
 
     project = load_project_arg(args.project)
-    say_progress("designing the shaper and its schedule")
-    d = design_for_project(project)
+    d = design_for_project(project, progress=_design_progress(project) if not args.json and sys.stderr.isatty()
+                           else None)
     say_progress("checking the design on the project's move (nonlinear, nominal rig and envelope corners)")
     check = check_design_on_move(project, d.shaper)
     out = {"project": project.name, "digest": project.digest, **d.as_dict(), "move_check": check.as_dict(),

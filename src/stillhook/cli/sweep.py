@@ -28,7 +28,7 @@ EXAMPLES = """  stillhook sweep demo
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
     add_quantity_option(p, "--grid", "grid_points", f"rope lengths x payload masses, evenly spaced over the envelope "
-                        f"(default {_DEFAULT_GRID[0]} {_DEFAULT_GRID[1]}, at most 201 each; a range of one value "
+                        f"(default {_DEFAULT_GRID[0]} {_DEFAULT_GRID[1]}, at most 1000 each; a range of one value "
                         "gets one point)", nargs=2, metavar=("NL", "NM"))
     add_quantity_option(p, "--samples", "random_rigs", "N random rigs drawn uniformly over the envelope instead of "
                         "a grid")
