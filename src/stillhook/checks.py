@@ -52,6 +52,11 @@ def finite_number(name: str, value, *, allowed: str, error: type[Exception] = Co
     return v
 
 
+def _num(x: float) -> str:
+    """A bound as people write it: whole numbers in full (1000000), others with %g."""
+    return str(int(x)) if float(x).is_integer() and abs(x) < 1e12 else f"{x:g}"
+
+
 @dataclass(frozen=True)
 class Limit:
     """Allowed values of one quantity: lo .. hi (an end is open where ``*_ok`` is False) and why.
@@ -71,9 +76,9 @@ class Limit:
         """E.g. ``"a number >= 1 and <= 5e+05 (kg); a hook block ..."``."""
         parts = []
         if self.lo is not None:
-            parts.append((">= " if self.lo_ok else "> ") + f"{self.lo:g}")
+            parts.append((">= " if self.lo_ok else "> ") + _num(self.lo))
         if self.hi is not None:
-            parts.append(("<= " if self.hi_ok else "< ") + f"{self.hi:g}")
+            parts.append(("<= " if self.hi_ok else "< ") + _num(self.hi))
         what = "a whole number" if self.integer else "a number"
         text = what + (" " + " and ".join(parts) if parts else "") + (f" ({self.unit})" if self.unit else "")
         return text + (f"; {self.reason}" if self.reason else "")
@@ -87,10 +92,10 @@ class Limit:
         why = f" ({self.reason})" if self.reason else ""
         if self.lo is not None and (v < self.lo or (v == self.lo and not self.lo_ok)):
             bound = "at least" if self.lo_ok else "more than"
-            raise error(f"{name} = {value!r} is too small; allowed: {bound} {self.lo:g}{unit}{why}")
+            raise error(f"{name} = {value!r} is too small; allowed: {bound} {_num(self.lo)}{unit}{why}")
         if self.hi is not None and (v > self.hi or (v == self.hi and not self.hi_ok)):
             bound = "at most" if self.hi_ok else "less than"
-            raise error(f"{name} = {value!r} is too large; allowed: {bound} {self.hi:g}{unit}{why}")
+            raise error(f"{name} = {value!r} is too large; allowed: {bound} {_num(self.hi)}{unit}{why}")
         return int(v) if self.integer else v
 
 

@@ -163,7 +163,7 @@ def test_sweep_rejects_bad_requests(demo_project):
         sweep_project(demo_project, grid=(2, 2), keys=("unshaped", "posicast"), check=False)
     with pytest.raises(ConfigError, match="distance"):
         sweep_project(demo_project, grid=(2, 2), keys=("unshaped",), distance_m=-1.0, check=False)
-    with pytest.raises(ConfigError, match="1000001 is out of range; allowed: 1 to 1000000 rigs"):
+    with pytest.raises(ConfigError, match="samples = 1000001 is too large; allowed: at most 1000000 rigs"):
         sweep_project(demo_project, samples=1_000_001, keys=("unshaped",), check=False)
 
 
