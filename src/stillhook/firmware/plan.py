@@ -11,7 +11,7 @@ What gets emitted
       (by default a length-scheduled two-mode shaper within the project's tolerance over the
       envelope), amplitudes as integers summing to exactly 2^F, delays in whole drive cycles;
     * the rope-length lookup: thresholds in input counts (``[firmware] rope_length_lsb_m`` metres
-      per count) that reproduce the schedule's own row rule (see :func:`stillhook.shaping.lookup.lookup_thresholds`);
+      per count) that reproduce the schedule's own row rule (see :func:`stillhook.model.lookup.lookup_thresholds`);
     * the notch cascade, only when asked: ``[firmware] notch = true``, or, with that key unset, when
       the project file has a ``[notch]`` section (an empty ``[notch]`` table asks for the
       default notch). Its coefficients are checked for notch shift (:mod:`stillhook.firmware.notch_tables`);
@@ -47,7 +47,7 @@ from stillhook.notch.design import notch_for_project
 from stillhook.outputs import to_json, write_files
 from stillhook.project import SCHEMA
 from stillhook.shaping.envelope_design import schedule_for_project
-from stillhook.shaping.lookup import LOOKUP_RULES, lookup_thresholds
+from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds
 from stillhook.version import __version__
 
 __all__ = [

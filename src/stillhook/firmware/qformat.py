@@ -37,7 +37,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from stillhook.errors import ConfigError, EmitError
-from stillhook.shaping.lookup import rope_length_counts, rows_for_counts
+from stillhook.model.lookup import rope_length_counts, rows_for_counts
 
 __all__ = [
     "BiquadModel", "BiquadTable", "FRACTION_BITS", "MAX_POST_SHIFT", "MAX_STAGES", "MAX_TAPS", "SAMPLE_BYTES",

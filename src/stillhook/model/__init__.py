@@ -12,6 +12,12 @@ _EXPORTS = {
     "mode_frequencies_rad_s": "stillhook.model.rig",
     "STANDARD_GRAVITY_M_S2": "stillhook.model.rig",
     "DEFAULT_DAMPING_RATIO": "stillhook.model.rig",
+    "LOOKUP_RULES": "stillhook.model.lookup",
+    "lookup_thresholds": "stillhook.model.lookup",
+    "rope_length_counts": "stillhook.model.lookup",
+    "row_edges_m": "stillhook.model.lookup",
+    "rows_for_counts": "stillhook.model.lookup",
+    "schedule_rows": "stillhook.model.lookup",
     "OUTPUT_NAMES": "stillhook.model.statespace",
     "rig_state_space": "stillhook.model.statespace",
 }

@@ -25,7 +25,7 @@ import numpy as np
 
 from stillhook.errors import ConfigError
 from stillhook.notch.cascade import NotchDesign
-from stillhook.shaping.lookup import row_edges_m, schedule_rows
+from stillhook.model.lookup import row_edges_m, schedule_rows
 from stillhook.sim.dynamics import simulate
 from stillhook.sim.profiles import project_move
 
