@@ -23,7 +23,7 @@ from __future__ import annotations
 import hashlib
 import math
 import tomllib
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -86,6 +86,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "max_jerk_m_s3": Key("number", default=None, minimum=0.0, min_inclusive=False),
         "hoist_speed_m_s": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=5.0),
         "hoist_accel_m_s2": Key("number", default=0.2, minimum=0.0, min_inclusive=False, maximum=10.0),
+        # the drive's closed speed loop as a first-order lag (s); 0.05 s is common practice for trolley
+        # inverter drives (no source): used by the feedback design and the closed-loop simulation
+        "speed_loop_time_constant_s": Key("number", default=0.05, minimum=0.0, min_inclusive=False, maximum=5.0),
     },
     "move": {
         "distance_m": Key("number", default=6.0, minimum=0.0, min_inclusive=False, maximum=1000.0),
@@ -119,6 +122,26 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "escalate_to_q31": Key("bool", default=True),
     },
 }
+# sway sensor for the feedback controller: what it measures (the commissioning logs' names), its noise
+# standard deviation and resolution in that unit, and its delay in whole drive cycles
+SCHEMA["sensor"] = {
+    "kind": Key("choice", default="hook_angle_rad",
+                choices=("hook_angle_rad", "payload_angle_rad", "hook_offset_m", "payload_offset_m")),
+    "noise_sd": Key("number", default=0.0, minimum=0.0, maximum=10.0),
+    "resolution": Key("number", default=0.0, minimum=0.0, maximum=1.0),
+    "delay_cycles": Key("int", default=0, minimum=0, maximum=50),
+}
+# closed-loop sway damping (stillhook.feedback): present = the project uses a feedback controller
+SCHEMA["feedback"] = {
+    # damping ratio every closed-loop pole pair (both sway modes, the observer) reaches at each row's design rig
+    "target_damping_ratio": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=0.7),
+    # the least damping ratio accepted anywhere on the envelope grid (the check reports pass or fail)
+    "min_damping_ratio": Key("number", default=0.03, minimum=0.0, maximum=0.7),
+    # rope-length rows of the gain schedule, geometrically spaced over the hoist range
+    "rows": Key("int", default=8, minimum=1, maximum=64),
+    # payload mass each row is designed at; unset: [rig] nominal_payload_mass_kg
+    "design_payload_mass_kg": Key("number", default=None, minimum=0.0),
+}
 REQUIRED_SECTIONS = ("rig", "drive")
 
 
@@ -138,6 +161,9 @@ class Project:
         File stem, e.g. ``"demo_project"``.
     given_sections : tuple of str
         The sections the file itself contains (an empty ``[notch]`` table counts).
+    sensor, feedback : dict
+        Every key of ``[sensor]`` and ``[feedback]``, defaults filled in (the feedback controller is
+        used when ``"feedback" in given_sections``).
     """
 
     envelope: Envelope
@@ -149,6 +175,8 @@ class Project:
     digest: str
     name: str = "project"
     given_sections: tuple[str, ...] = ()
+    sensor: dict = field(default_factory=dict)
+    feedback: dict = field(default_factory=dict)
 
 
 def _where(section: str, key: str) -> str:
@@ -260,7 +288,8 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
             raise ConfigError(f"[move] hoist_to_m = {hoist_to:g} is outside the rope range; "
                               f"allowed: a value in [{lo:g}, {hi:g}]")
     return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name,
-                   given_sections=tuple(section for section in SCHEMA if section in data))
+                   given_sections=tuple(section for section in SCHEMA if section in data),
+                   sensor=s["sensor"], feedback=s["feedback"])
 
 
 def load_project(path: str | Path) -> Project:
