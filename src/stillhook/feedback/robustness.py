@@ -89,9 +89,9 @@ def loop_frequency_response(plant, controller, cycle_s: float, omega_rad_s) -> n
 
 def _frequency_grid(mode_omegas, cycle_s: float) -> np.ndarray:
     nyq = math.pi / cycle_s
-    parts = [np.geomspace(1e-3 * min(mode_omegas), nyq * (1 - 1e-9), 1500)]
+    parts = [np.geomspace(1e-3 * min(mode_omegas), nyq * (1 - 1e-9), 800)]
     for w in mode_omegas:
-        parts.append(np.linspace(0.8 * w, min(1.2 * w, nyq * (1 - 1e-9)), 1201))
+        parts.append(np.linspace(0.8 * w, min(1.2 * w, nyq * (1 - 1e-9)), 601))
     return np.unique(np.concatenate(parts))
 
 
