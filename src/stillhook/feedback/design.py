@@ -45,7 +45,7 @@ from stillhook.feedback.plant import DesignPlant, design_plant
 from stillhook.model.lookup import schedule_rows
 
 __all__ = ["FeedbackDesign", "FeedbackRow", "MIN_MEASUREMENT_VARIANCE", "POSITION_BANDWIDTH_RATIO", "REACHABLE_FRACTION",
-           "delayed_model", "design_feedback", "feedback_for_project", "min_damping_ratio", "row_rope_lengths_m"]
+           "delayed_model", "design_feedback", "design_row", "regulator_weights", "feedback_for_project", "min_damping_ratio", "row_rope_lengths_m"]
 
 #: w_p = w_1 / POSITION_BANDWIDTH_RATIO (our choice, see the module docstring).
 POSITION_BANDWIDTH_RATIO = 3.0
@@ -165,9 +165,9 @@ class FeedbackRow:
                 "observer_damping_ratio": self.observer_damping_ratio}
 
 
-def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: float, target: float) -> FeedbackRow:
-    """LQR and Kalman gains of one row, both tuned to ``target`` (module docstring)."""
-    T, n = plant.cycle_s, plant.n_rig
+def regulator_weights(plant: DesignPlant) -> tuple[np.ndarray, np.ndarray]:
+    """(Q_sway, Q_pos) of the LQR cost: Q = q_s Q_sway + Q_pos, R = 1 (module docstring)."""
+    n = plant.n_rig
     w1 = plant.rig.modes()[0].omega_rad_s
     C_rate = np.zeros_like(plant.C_offsets)
     nq = n // 2
@@ -175,6 +175,13 @@ def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: floa
     Q_sway = plant.C_offsets.T @ plant.C_offsets + C_rate.T @ C_rate / w1**2
     Q_pos = np.zeros((n + 2, n + 2))
     Q_pos[n + 1, n + 1] = (w1 / POSITION_BANDWIDTH_RATIO) ** 2
+    return Q_sway, Q_pos
+
+
+def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: float, target: float) -> FeedbackRow:
+    """LQR and Kalman gains of one row, both tuned to ``target`` (module docstring)."""
+    T = plant.cycle_s
+    Q_sway, Q_pos = regulator_weights(plant)
     R = np.eye(1)
 
     def regulator(q):

@@ -37,7 +37,7 @@ from stillhook.feedback.design import FeedbackDesign, FeedbackRow, delayed_model
 from stillhook.feedback.plant import design_plant
 from stillhook.model.lookup import row_edges_m
 
-__all__ = ["EnvelopeCheck", "GridPoint", "check_envelope", "closed_loop_matrix", "controller_system",
+__all__ = ["EnvelopeCheck", "GridPoint", "check_envelope", "check_point", "closed_loop_matrix", "controller_system",
            "envelope_grid", "loop_frequency_response", "margins", "plant_system"]
 
 
