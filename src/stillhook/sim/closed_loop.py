@@ -218,7 +218,7 @@ def run_closed_loop(rig: Rig, reference_m_s, cycle_s: float, tau_s: float, contr
         th0[1] = th0[0]
     st = PlantState([th0[0], th0[1], 0.0, 0.0], 0.0, 0.0, rig.rope_length_m)
     rng = np.random.default_rng(sensor.seed)
-    line = deque([sensor_reading(rig, st, sensor.kind)] * sensor.delay_cycles)
+    line: deque = deque()
     rec = np.empty((n, 8))
     cmd, acc = np.empty(n), np.empty(n)
     for k in range(n):
@@ -226,6 +226,8 @@ def run_closed_loop(rig: Rig, reference_m_s, cycle_s: float, tau_s: float, contr
         meas = true + (rng.normal(0.0, sensor.noise_sd) if sensor.noise_sd > 0 else 0.0)
         if sensor.resolution > 0:
             meas = sensor.resolution * math.floor(meas / sensor.resolution + 0.5)
+        if k == 0:
+            line.extend([meas] * sensor.delay_cycles)  # before the start the sensor read the initial sway
         line.append(meas)
         y = line.popleft()
         u = float(ref[k]) if controller is None else float(controller(y, st.rope_length_m, float(ref[k])))
