@@ -12,8 +12,8 @@ import pytest
 from stillhook.cli import main
 from stillhook.errors import ConfigError
 from stillhook.model.envelope import Envelope
-from stillhook.shaping.closed_forms import zv, zvd
 from stillhook.model.lookup import lookup_thresholds, schedule_rows
+from stillhook.shaping.closed_forms import zv, zvd
 from stillhook.shaping.shaper import Shaper
 from stillhook.sim.profiles import trapezoid
 from stillhook.study.modal_sweep import ModalBatch

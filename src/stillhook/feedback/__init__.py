@@ -7,6 +7,9 @@ Every name below is loaded from its module on first use (see :mod:`stillhook.laz
 from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
+    "FeedbackController": "stillhook.feedback.controller",
+    "check_envelope": "stillhook.feedback.robustness",
+    "EnvelopeCheck": "stillhook.feedback.robustness",
     "SENSOR_KINDS": "stillhook.feedback.plant",
     "design_plant": "stillhook.feedback.plant",
     "FeedbackDesign": "stillhook.feedback.design",

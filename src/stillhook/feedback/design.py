@@ -44,8 +44,9 @@ from stillhook.errors import ConfigError, DesignError
 from stillhook.feedback.plant import DesignPlant, design_plant
 from stillhook.model.lookup import schedule_rows
 
-__all__ = ["FeedbackDesign", "FeedbackRow", "MIN_MEASUREMENT_VARIANCE", "POSITION_BANDWIDTH_RATIO", "REACHABLE_FRACTION",
-           "delayed_model", "design_feedback", "design_row", "regulator_weights", "feedback_for_project", "min_damping_ratio", "row_rope_lengths_m"]
+__all__ = ["FeedbackDesign", "FeedbackRow", "MIN_MEASUREMENT_VARIANCE", "POSITION_BANDWIDTH_RATIO",
+           "REACHABLE_FRACTION", "delayed_model", "design_feedback", "design_row", "feedback_for_project",
+           "min_damping_ratio", "regulator_weights", "row_rope_lengths_m"]
 
 #: w_p = w_1 / POSITION_BANDWIDTH_RATIO (our choice, see the module docstring).
 POSITION_BANDWIDTH_RATIO = 3.0

@@ -43,11 +43,11 @@ from stillhook.firmware.render_c import render_readme, render_tables_c, render_t
 from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
 from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
+from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds
 from stillhook.notch.design import notch_for_project
 from stillhook.outputs import to_json, write_files
 from stillhook.project import SCHEMA
 from stillhook.shaping.envelope_design import schedule_for_project
-from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds
 from stillhook.version import __version__
 
 __all__ = [

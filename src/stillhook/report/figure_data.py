@@ -24,8 +24,8 @@ from dataclasses import replace
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.notch.cascade import NotchDesign
 from stillhook.model.lookup import row_edges_m, schedule_rows
+from stillhook.notch.cascade import NotchDesign
 from stillhook.sim.dynamics import simulate
 from stillhook.sim.profiles import project_move
 

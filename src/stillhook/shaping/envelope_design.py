@@ -37,10 +37,10 @@ import numpy as np
 
 from stillhook.cautions import CAUTIONS
 from stillhook.errors import DesignError
+from stillhook.model.lookup import row_edges_m, schedule_rows
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
-from stillhook.model.lookup import row_edges_m, schedule_rows
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 

@@ -211,7 +211,8 @@ def run_closed_loop(rig: Rig, reference_m_s, cycle_s: float, tau_s: float, contr
     L_min = float(rig.rope_length_m + min(0.0, np.min(np.cumsum(hoist) * T)))
     if L_min <= 0.05:
         raise ConfigError("the hoist command shortens the rope to <= 0.05 m; allowed: L1 > 0.05 m throughout")
-    w_max = 1.2 * Rig(rig.hook_mass_kg, rig.payload_mass_kg, L_min, rig.rigging_length_m, rig.gravity_m_s2).modes()[-1].omega_rad_s
+    shortest = Rig(rig.hook_mass_kg, rig.payload_mass_kg, L_min, rig.rigging_length_m, rig.gravity_m_s2)
+    w_max = 1.2 * shortest.modes()[-1].omega_rad_s
     sub = max(1, math.ceil(T * w_max / 0.02), math.ceil(5.0 * T / tau))
     th0 = [float(v) for v in initial_angles_rad]
     if rig.is_single_pendulum:
