@@ -130,6 +130,13 @@ SCHEMA["sensor"] = {
     "noise_sd": Key("number", default=0.0, minimum=0.0, maximum=10.0),
     "resolution": Key("number", default=0.0, minimum=0.0, maximum=1.0),
     "delay_cycles": Key("int", default=0, minimum=0, maximum=50),
+    # fault path of the feedback runtime: a reading beyond max_abs (sensor unit; unset: 0.35 rad, or 0.35 x the
+    # longest rope plus rigging for offsets), one that changes by more than max_jump in a cycle (unset: 4 x the
+    # fastest sway at max_abs plus 6 noise_sd and 2 resolutions), or no new sample for stale_cycles cycles
+    # switches the feedback off
+    "max_abs": Key("number", default=None, minimum=0.0, min_inclusive=False),
+    "max_jump": Key("number", default=None, minimum=0.0, min_inclusive=False),
+    "stale_cycles": Key("int", default=5, minimum=1, maximum=1000),
 }
 # closed-loop sway damping (stillhook.feedback): present = the project uses a feedback controller
 SCHEMA["feedback"] = {

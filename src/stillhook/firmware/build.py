@@ -27,7 +27,7 @@ from stillhook.firmware.runtime import RUNTIME_FILES, runtime_dir
 __all__ = ["CRuntime", "load_emitted", "runtime_cdef"]
 
 #: Runtime headers whose declarations cffi needs, in include order.
-_CDEF_HEADERS = ("shk_fixed.h", "shk_schedule.h", "shk_shaper.h", "shk_biquad.h")
+_CDEF_HEADERS = ("shk_fixed.h", "shk_schedule.h", "shk_shaper.h", "shk_biquad.h", "shk_feedback.h")
 
 
 def runtime_cdef(folder: Path | None = None) -> str:
@@ -43,6 +43,9 @@ def runtime_cdef(folder: Path | None = None) -> str:
     for name in _CDEF_HEADERS:
         text = (base / name).read_text()
         text = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
+        # array sizes given by a numeric #define (e.g. SHK_FB_MAX_OBS) become the number for cffi
+        for macro, value in re.findall(r"^#define\s+(\w+)\s+(\d+)\s*$", text, flags=re.M):
+            text = text.replace(f"[{macro}]", f"[{value}]")
         kept, continued = [], False
         for line in text.splitlines():
             drop = continued or line.lstrip().startswith(("#", "SHK_STATIC_ASSERT"))
