@@ -18,9 +18,12 @@ from stillhook.feedback.robustness import check_point, plant_system
 from stillhook.firmware.build import runtime_cdef
 from stillhook.firmware.feedback_model import FB_JUMP, FB_RANGE, FB_STALE, FeedbackModel
 from stillhook.firmware.feedback_tables import feedback_tables, from_q31, to_q31
+from stillhook.firmware.plan import plan_for_project, render_files
 from stillhook.firmware.runtime import RUNTIME_FILES, runtime_dir
 from stillhook.model.envelope import Envelope
 from stillhook.model.lookup import rope_length_counts
+from stillhook.outputs import write_files
+from stillhook.project import project_from_dict
 from stillhook.sim.closed_loop import Sensor, run_closed_loop
 from stillhook.sim.profiles import trapezoid
 
@@ -248,3 +251,43 @@ def test_worst_damping_recomputed_from_the_integer_tables(fb):
             worst_float = min(worst_float, check_point(design, rig).damping_ratio)
     assert worst_int == pytest.approx(worst_float, abs=2e-3)
     assert worst_int > 0
+
+
+def test_emit_includes_the_feedback_and_its_c_matches_the_reference(tmp_path):
+    data = {"rig": {"hook_mass_kg": 200.0, "rigging_length_m": 1.5, "rope_length_m": [3.0, 4.5],
+                    "payload_mass_kg": [280.0, 320.0], "damping_ratio": 0.002},
+            "drive": {"cycle_s": 0.01, "max_speed_m_s": 0.5, "max_accel_m_s2": 0.3},
+            "sensor": {"kind": "payload_offset_m", "noise_sd": 0.001, "delay_cycles": 2},
+            "feedback": {"rows": 3}}
+    plan = plan_for_project(project_from_dict(data, name="fbemit"), prefix="fx")
+    files = render_files(plan)
+    assert {"fx_feedback.h", "fx_feedback.c", "shk_feedback.h", "shk_feedback.c"} <= set(files)
+    assert "switch the feedback OFF" in files["fx_feedback.h"] and "not a safety function" in files["fx_feedback.h"]
+    assert '"feedback"' in files["manifest.json"]
+    without = plan_for_project(project_from_dict({k: v for k, v in data.items() if k != "feedback"}), prefix="fx")
+    assert "fx_feedback.c" not in render_files(without)
+    write_files(tmp_path / "out", files)
+    folder = tmp_path / "out"
+    ffi = cffi.FFI()
+    ffi.cdef(runtime_cdef(folder) + "const shk_feedback_table_t *fx_fb(void);\n")
+    headers = "".join(f'#include "{n}"\n' for n in RUNTIME_FILES if n.endswith(".h"))
+    sources = [str(folder / n) for n in RUNTIME_FILES if n.endswith(".c")] + [str(folder / "fx_feedback.c")]
+    ffi.set_source("_fx_feedback", headers + '#include "fx_feedback.h"\nconst shk_feedback_table_t *fx_fb(void) '
+                   "{ return &fx_feedback_table; }\n", sources=sources, include_dirs=[str(folder)],
+                   extra_compile_args=["-std=c99", "-O1"])
+    path = ffi.compile(tmpdir=str(tmp_path / "build"))
+    spec = importlib.util.spec_from_file_location("_fx_feedback", path)
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    inst, out = mod.ffi.new("shk_feedback_t *"), mod.ffi.new("int32_t *")
+    assert mod.lib.shk_feedback_init(inst, mod.lib.fx_fb()) == 0
+    if shutil.which("gcc") is not None:  # the emitted tables compile clean under strict warnings too
+        strict = ["gcc", "-std=c99", "-Wall", "-Wextra", "-Wpedantic", "-Wconversion", "-Werror", f"-I{folder}", "-c",
+                  str(folder / "fx_feedback.c"), "-o", str(tmp_path / "fx_feedback.o")]
+        res = subprocess.run(strict, capture_output=True, text=True)
+        assert res.returncode == 0, res.stderr
+    t = plan.feedback
+    model = FeedbackModel(t)
+    for L, y, seq, r in zip(*random_inputs(t, 700, seed=8), strict=True):
+        st = mod.lib.shk_feedback_step(inst, int(L), int(y), int(seq), int(r), out)
+        assert (int(out[0]), int(st)) == model.step(L, y, seq, r)

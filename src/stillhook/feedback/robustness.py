@@ -192,10 +192,15 @@ class EnvelopeCheck:
         return self.all_stable and self.worst.damping_ratio >= self.min_damping_ratio
 
     def as_dict(self) -> dict:
+        """JSON-ready; an infinite margin (no crossover anywhere) is None."""
         w = self.worst
-        return {"worst_closed_loop_damping_ratio": w.damping_ratio,
-                "worst_at": {"rope_length_m": w.rope_length_m, "payload_mass_kg": w.payload_mass_kg},
-                "delay_margin_cycles": self.delay_margin_cycles, "gain_margin_db": self.gain_margin_db,
+
+        def num(v):
+            return float(v) if math.isfinite(v) else None
+
+        return {"worst_closed_loop_damping_ratio": float(w.damping_ratio),
+                "worst_at": {"rope_length_m": float(w.rope_length_m), "payload_mass_kg": float(w.payload_mass_kg)},
+                "delay_margin_cycles": num(self.delay_margin_cycles), "gain_margin_db": num(self.gain_margin_db),
                 "all_stable": self.all_stable, "min_damping_ratio": self.min_damping_ratio,
                 "passed": self.passed, "grid_points": len(self.points)}
 

@@ -35,11 +35,15 @@ from pathlib import Path
 
 import numpy as np
 
-from stillhook.cautions import CAUTIONS
+from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
 from stillhook.errors import ConfigError, EmitError
+from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robustness import check_envelope
+from stillhook.firmware.feedback_tables import feedback_tables
 from stillhook.firmware.notch_tables import choose_notch_format
 from stillhook.firmware.qformat import FRACTION_BITS, ScheduleTable, quantize_amplitudes
 from stillhook.firmware.render_c import render_readme, render_tables_c, render_tables_h
+from stillhook.firmware.render_feedback import render_feedback_c, render_feedback_h
 from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
 from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
@@ -124,6 +128,9 @@ class EmitPlan:
     notch: object | None  # stillhook.firmware.notch_tables.NotchCheck
     ram_budget_bytes: int
     design_note: str = ""
+    #: stillhook.firmware.feedback_tables.FeedbackTables when the project has [feedback], and its check summary
+    feedback: object | None = None
+    feedback_summary: dict | None = None
 
     def sizes(self) -> dict:
         """RAM (caller buffers) and flash (const tables) in bytes."""
@@ -187,9 +194,16 @@ class EmitPlan:
                 "sos": [[float(c) for c in row] for row in t.sos()],
                 **self.notch.as_dict(),
             }
+        if self.feedback is not None:
+            t = self.feedback
+            out["feedback"] = {**self.feedback_summary, "rows": t.n_rows, "observer_states": t.n_obs,
+                               "sensor_full_scale": t.fs_y, "speed_full_scale_m_s": t.fs_v,
+                               "thresholds_counts": [int(v) for v in t.thresholds],
+                               "fractions": {"obs_next": t.frac_o, "du_row": t.frac_u, "vhat_row": t.frac_v,
+                                             "drive": t.frac_d}}
         out["sizes"] = self.sizes()
         out["files"] = sorted(files)
-        out["cautions"] = list(CAUTIONS)
+        out["cautions"] = list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if self.feedback is not None else [])
         return out
 
 
@@ -286,9 +300,16 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
                         f"range [{lo_m:g}, {hi_m:g}] m; allowed: a smaller [firmware] rope_length_lsb_m "
                         "or fewer [design] max_schedule_rows")
 
+    fb_tables, fb_summary = None, None
+    if "feedback" in project.given_sections:
+        fb_design = feedback_for_project(project)
+        fb_tables = feedback_tables(fb_design, env, project.sensor, lsb)
+        fb_check = check_envelope(fb_design, env, project.feedback["min_damping_ratio"])
+        fb_summary = {**fb_check.as_dict(), "sensor_kind": fb_design.sensor_kind,
+                      "delay_cycles": fb_design.delay_cycles}
     plan = EmitPlan(prefix, fmt_out, fmt_requested, reason, cycle_s, project.digest, project.name,
                     env.describe(), float(schedule.tolerance), rule, tuple(rows), table, sched, check,
-                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "")
+                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "", fb_tables, fb_summary)
     sizes = plan.sizes()
     if sizes["ram_bytes"] > plan.ram_budget_bytes:
         longest = max(rows, key=lambda r: r.delays_cycles[-1])
@@ -309,6 +330,9 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
     files[f"{p}_tables.c"] = render_tables_c(plan)
     files[f"{p}_selftest.c"] = render_selftest(plan)
     files[f"{p}_README.md"] = render_readme(plan)
+    if plan.feedback is not None:
+        files[f"{p}_feedback.h"] = render_feedback_h(plan, plan.feedback, plan.feedback_summary)
+        files[f"{p}_feedback.c"] = render_feedback_c(plan, plan.feedback)
     names = sorted([*files, "manifest.json"])
     files["manifest.json"] = to_json(plan.manifest(names))
     return {k: files[k] for k in sorted(files)}
