@@ -195,7 +195,8 @@ def load_emitted(folders, build_dir, *, extra_compile_args=("-std=c99", "-O1")) 
     prefixes = [m["prefix"] for m in manifests]
     if len(set(prefixes)) != len(prefixes):
         raise EmitError(f"folders must have distinct prefixes, got {prefixes}")
-    header = "".join(f'#include "{m["prefix"]}_tables.h"\n' for m in manifests)
+    header = "".join(f'#include "{n}"\n' for n in RUNTIME_FILES if n.endswith(".h"))
+    header += "".join(f'#include "{m["prefix"]}_tables.h"\n' for m in manifests)
     header += "".join(_getter_defs(m) for m in manifests)
     sources = [str(folders[0] / n) for n in RUNTIME_FILES if n.endswith(".c")]
     sources += [str(f / f"{m['prefix']}_tables.c") for f, m in zip(folders, manifests, strict=True)]
