@@ -39,6 +39,7 @@ def metrics_rows(results: dict) -> tuple[list[str], list[list]]:
     rows = []
     for name, r in results.items():
         m = r.metrics()
-        rows.append([name, 1000 * m["residual_payload_sway_m"], m["settle_s"], m["peak_speed_m_s"],
+        settle = "not at rest" if m["settle_s"] is None else m["settle_s"]
+        rows.append([name, 1000 * m["residual_payload_sway_m"], settle, m["peak_speed_m_s"],
                      m["peak_accel_m_s2"], 1000 * m["end_error_m"]])
     return headers, rows

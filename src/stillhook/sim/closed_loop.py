@@ -161,10 +161,13 @@ class ClosedLoopResult:
     rest_band_m: float
 
     def metrics(self) -> dict:
+        """Residual sway, settle time (None: not within ``rest_band_m`` of the target by the end), peak speed and
+        acceleration the drive was asked for, end position error (trolley minus target)."""
         s = self.sim
         place = np.abs(s.trolley_position_m + s.payload_offset_m - self.target_m)
+        settle = time_within_s(s.t_s, place, self.rest_band_m)
         return {"residual_payload_sway_m": s.residual_payload_sway_m,
-                "settle_s": time_within_s(s.t_s, place, self.rest_band_m),
+                "settle_s": settle if math.isfinite(settle) else None,
                 "peak_speed_m_s": float(np.max(np.abs(s.trolley_speed_m_s))),
                 "peak_accel_m_s2": float(np.max(np.abs(self.accel_m_s2))),
                 "end_error_m": float(s.trolley_position_m[-1] - self.target_m),
