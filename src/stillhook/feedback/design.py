@@ -55,8 +55,8 @@ POSITION_BANDWIDTH_RATIO = 3.0
 MIN_MEASUREMENT_VARIANCE = 1e-12
 #: Log-scan of the tuning weights (decades), then bisection to this relative precision.
 _SCAN_DECADES = (-6.0, 10.0)
-_SCAN_POINTS = 33
-_BISECT_STEPS = 20
+_SCAN_POINTS = 17
+_BISECT_STEPS = 16
 #: Where the damping target is out of reach, tune to this fraction of the best damping found.
 REACHABLE_FRACTION = 0.9
 

@@ -106,10 +106,10 @@ def design_plant(rig: Rig, cycle_s: float, tau_s: float, sensor_kind: str) -> De
     B = np.zeros((n + 2, 1))
     B[:n, 0] = B_r[:, 0] / tau_s
     B[n, 0] = 1.0 / tau_s
-    Phi, Gamma = sampled(A, B, cycle_s)
     Gd = np.zeros((n + 2, 1))
     Gd[:n] = -B_r                          # disturbance acceleration w acts as a trolley acceleration -w
-    _, G = sampled(A, Gd, cycle_s)
+    Phi, both = sampled(A, np.hstack([B, Gd]), cycle_s)  # one exponential for both held inputs
+    Gamma, G = both[:, :1], both[:, 1:]
     C_s = np.zeros((1, n + 2))
     C_s[0, :n] = C_r[SENSOR_ROWS[sensor_kind]]
     C_o = np.zeros((2, n + 2))
