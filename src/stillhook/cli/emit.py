@@ -31,7 +31,8 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json({"out": str(args.out), "files": sorted(p.name for p in written), "format": plan.fmt,
                     "format_reason": plan.format_reason, "rows": len(plan.rows),
-                    "notch": plan.notch is not None, "sizes": sizes})
+                    "notch": plan.notch is not None, "sizes": sizes,
+                    **({"feedback": plan.feedback_summary} if plan.feedback is not None else {})})
         return 0
     print(f"wrote {len(written)} files to {args.out}")
     print(f"format {plan.fmt.upper()}, drive cycle {plan.cycle_s:g} s, {len(plan.rows)} shaper rows over "
@@ -43,4 +44,13 @@ def run(args: argparse.Namespace) -> int:
           f"flash {sizes['flash_table_bytes']} bytes of tables")
     print(f"check on the host: cd {args.out} && cc -std=c99 -o {plan.prefix}_selftest {plan.prefix}_selftest.c "
           f"{plan.prefix}_tables.c shk_*.c && ./{plan.prefix}_selftest")
+    if plan.feedback is not None:
+        from stillhook.cautions import FEEDBACK_CAUTIONS
+        from stillhook.cli._common import print_bullets
+
+        fs = plan.feedback_summary
+        print(f"feedback: {plan.feedback.n_rows} rows, {plan.feedback.n_obs} observer states, sensor "
+              f"{fs['sensor_kind']} ({plan.prefix}_feedback.h/.c); worst closed-loop damping ratio "
+              f"{fs['worst_closed_loop_damping_ratio']:.4g} ({'pass' if fs['passed'] else 'FAIL'})")
+        print_bullets("Feedback cautions", FEEDBACK_CAUTIONS)
     return 0
