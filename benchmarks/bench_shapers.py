@@ -43,6 +43,7 @@ def main() -> None:
     import stillhook.shaping.envelope_design as design_mod
     from stillhook.project import load_demo_project
     from stillhook.shaping.closed_forms import ei2, zvd
+    from stillhook.shaping.design_cache import clear_design_caches
 
     # -- V over 10,000 frequencies -------------------------------------------------------------
     s = zvd(0.2, 0.01).convolve(ei2(0.6, 0.01))
@@ -68,7 +69,7 @@ def main() -> None:
     scipy.optimize.linprog = counted
 
     def two_mode():
-        opt._MEMO.clear()
+        clear_design_caches("band_design", "project_design")
         calls["n"] = 0
         return opt.two_mode_shapers(bands, 0.049, zeta, cycle_s=cycle)
 
@@ -81,7 +82,7 @@ def main() -> None:
           f"ratio {r.direct.duration_s / r.convolved.duration_s:.3f}")
 
     def direct_only():
-        opt._MEMO.clear()
+        clear_design_caches("band_design", "project_design")
         calls["n"] = 0
         return opt.multi_band_shaper(bands, 0.049, zeta, cycle_s=cycle)
 
@@ -93,8 +94,7 @@ def main() -> None:
         p = dataclasses.replace(project, design=dict(project.design, schedule=sched))
 
         def run(p=p):
-            opt._MEMO.clear()
-            design_mod._CACHE.clear()
+            clear_design_caches("band_design", "project_design")
             calls["n"] = 0
             return design_mod.design_for_project(p)
 

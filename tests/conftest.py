@@ -2,8 +2,13 @@
 
 from __future__ import annotations
 
+import contextlib
+import io
+import json
+
 import pytest
 
+from stillhook.cli import main
 from stillhook.project import load_demo_project
 
 
@@ -33,3 +38,28 @@ def minimal_project_file(tmp_path):
     p = tmp_path / "minimal.toml"
     p.write_text(MINIMAL_TOML)
     return p
+
+
+@pytest.fixture(scope="session")
+def pipeline_runs(tmp_path_factory):
+    """The two full pipelines, each run once per session and shared by every test that reads them.
+
+    ``"demo"``: ``stillhook demo`` on the demo project (reduced 3 x 4 sweep grid): (folder, exit status,
+    stdout). ``"report"``: ``stillhook report`` on the minimal project ([rig] and [drive] only, 3 x 3 grid,
+    no spot checks): (folder, exit status, the JSON it printed). Both run in one process, so they also
+    share the design cache (stillhook.shaping.design_cache).
+    """
+    root = tmp_path_factory.mktemp("pipelines")
+    demo_out = root / "demo"
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf):
+        demo_status = main(["demo", "--out", str(demo_out), "--grid", "3", "4"])
+    minimal = root / "minimal.toml"
+    minimal.write_text(MINIMAL_TOML)
+    report_out = root / "report"
+    buf_report = io.StringIO()
+    with contextlib.redirect_stdout(buf_report):
+        report_status = main(["report", str(minimal), "--out", str(report_out), "--grid", "3", "3", "--no-check",
+                              "--json"])
+    return {"demo": (demo_out, demo_status, buf.getvalue()),
+            "report": (report_out, report_status, json.loads(buf_report.getvalue()) if report_status == 0 else None)}

@@ -29,7 +29,7 @@ _API = {
     # motion and simulation
     "trapezoid": "stillhook.sim.profiles", "s_curve": "stillhook.sim.profiles",
     "project_move": "stillhook.sim.profiles", "simulate": "stillhook.sim.dynamics",
-    "SimResult": "stillhook.sim.dynamics",
+    "SimResult": "stillhook.sim.dynamics", "CommandFilter": "stillhook.sim.command_filter",
     # shaping
     "Shaper": "stillhook.shaping.shaper", "residual_vibration": "stillhook.shaping.shaper",
     "zv": "stillhook.shaping.closed_forms", "zvd": "stillhook.shaping.closed_forms",
@@ -37,6 +37,7 @@ _API = {
     "band_shaper": "stillhook.shaping.band_design", "two_mode_shapers": "stillhook.shaping.band_design",
     "design_for_project": "stillhook.shaping.envelope_design",
     "schedule_for_project": "stillhook.shaping.envelope_design",
+    "clear_design_caches": "stillhook.shaping.design_cache",
     # notch
     "design_notches": "stillhook.notch.design", "notch_for_project": "stillhook.notch.design",
     "NotchDesign": "stillhook.notch.cascade",

@@ -80,3 +80,9 @@ def test_every_design_output_carries_the_cautions(capsys):
     assert json.loads(capsys.readouterr().out)["cautions"] == list(CAUTIONS)
     assert main(["shaper", "--method", "zv", "--frequency-hz", "0.5"]) == 0
     assert CAUTIONS[0] in capsys.readouterr().out
+    # the project design, JSON and text
+    assert main(["shaper", "demo", "--json"]) == 0
+    assert json.loads(capsys.readouterr().out)["cautions"] == list(CAUTIONS)
+    assert main(["shaper", "demo"]) == 0
+    text = capsys.readouterr().out
+    assert all(c in text for c in CAUTIONS)

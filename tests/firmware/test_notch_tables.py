@@ -9,7 +9,7 @@ from scipy.signal import iirnotch
 from stillhook.errors import EmitError
 from stillhook.firmware.notch_tables import choose_notch_format, dc_gain, quantize_notch
 from stillhook.notch.design import design_notches
-from stillhook.notch.rounding import quantized_notch_shift
+from stillhook.notch.rounding import quantize_sos
 
 
 def _iirnotch_sos(f0, Q, fs):
@@ -52,11 +52,19 @@ def test_dc_gain_is_exactly_one_and_the_null_stays_on_the_unit_circle(fmt):
         scale = 2.0 ** (F - chk.table.post_shift)
         cm = np.column_stack([sos[:, :3], -sos[:, 4:]]) * scale
         assert np.all(np.abs(c - cm) <= 2.0)
-    # the notch module's own rounding leaves a DC error that this one removes (same zero angle)
-    plain = quantized_notch_shift(_iirnotch_sos(0.38153, 2.0, 100.0), "q15", 0.01)[0]
-    ours = quantize_notch(_iirnotch_sos(0.38153, 2.0, 100.0), "q15", 0.01, 0.01)
-    assert plain.dc_gain != 1.0
-    assert ours.quantized_freqs_hz[0] == pytest.approx(plain.quantized_frequency_hz, rel=1e-9)
+
+
+@pytest.mark.parametrize("fmt", ["q15", "q31"])
+def test_the_notch_design_reports_what_the_firmware_stores(fmt):
+    # one rounding analysis: the design's quantization figures are those of the stored integers
+    d = design_notches([0.2, 0.64], 0.005)
+    chk = quantize_notch(d.sos, fmt, 0.005, 0.01)
+    reported = d.quantization[fmt]
+    assert d.post_shift[fmt] == chk.table.post_shift
+    np.testing.assert_array_equal([q.quantized_frequency_hz for q in reported], chk.quantized_freqs_hz)
+    np.testing.assert_array_equal([q.relative_shift for q in reported], chk.relative_shifts)
+    assert all(q.dc_gain == 1.0 for q in reported) and dc_gain(chk.table) == 1.0
+    np.testing.assert_array_equal(chk.table.sos(), quantize_sos(d.sos, fmt)[0])
 
 
 def test_escalation_and_refusal_carry_the_numbers():

@@ -64,7 +64,14 @@ def test_post_shift_convention():
         assert shift == 1
         assert np.all(stored >= -(2**bits)) and np.all(stored <= 2**bits - 1)
         np.testing.assert_array_equal(sos_q[:, [0, 1, 2, 4, 5]], stored * 2.0 ** (shift - bits))
-        assert np.max(np.abs(sos_q - sos)) <= 2.0 ** (shift - bits - 1)
+        # rounding to nearest is within half a unit; the exact-DC step moves b0, b2, a2 by at most
+        # 1.5 units more, b1 and a1 not at all
+        unit = 2.0 ** (shift - bits)
+        assert np.max(np.abs(sos_q - sos)) <= 2.0 * unit
+        assert np.max(np.abs(sos_q[:, [1, 4]] - sos[:, [1, 4]])) <= 0.5 * unit
+        # and the rounded sections have DC gain exactly 1 (integers: B0 + B1 + B2 = N + A1 + A2)
+        N = 2 ** (bits - shift)
+        assert np.all(stored[:, :3].sum(axis=1) == N + stored[:, 3:].sum(axis=1))
     # small coefficients need no shift
     assert auto_post_shift([[0.5, 0.1, 0.2, 1.0, -0.3, 0.1]], "q15") == 0
 
@@ -90,6 +97,18 @@ def test_lost_notch_is_flagged():
     q = d.quantization["q15"][0]
     assert q.lost and q.quantized_frequency_hz == 0.0 and q.relative_shift == -1.0
     assert any("lost" in w for w in d.warnings)
+
+
+def test_ties_round_toward_plus_infinity_as_the_firmware_does():
+    # A coefficient exactly halfway between two Q15 steps rounds up (toward +infinity), the C runtime's
+    # round_shift rule, also when negative: floor(x + 1/2) (Graham, Knuth & Patashnik, Concrete
+    # Mathematics, 2nd ed., 1994, section 3.1). Section with DC gain 1, post shift 0, N = 2^15:
+    # a1 = -(1000.5) / N is a tie; b1 = a1 so both move together, a2 = 0, b0 + b2 = 1.
+    N = 2.0**15
+    a1 = -1000.5 / N
+    sos = [[0.5, a1, 0.5, 1.0, a1, 0.0]]
+    _, stored, shift = quantize_sos(sos, "q15", post_shift=0)
+    assert shift == 0 and stored[0, 1] == -1000 and stored[0, 3] == -1000  # not -1001 (away from zero)
 
 
 def test_bad_format_and_sos():

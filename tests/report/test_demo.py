@@ -37,15 +37,9 @@ class _Collect(HTMLParser):
 
 
 @pytest.fixture(scope="module")
-def demo_out(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo") / "run"
-    import contextlib
-    import io
-
-    buf = io.StringIO()
-    with contextlib.redirect_stdout(buf):
-        status = main(["demo", "--out", str(out), "--grid", "3", "4"])
-    return out, status, buf.getvalue()
+def demo_out(pipeline_runs):
+    """``stillhook demo --grid 3 4``: (folder, exit status, stdout), run once per session (tests/conftest.py)."""
+    return pipeline_runs["demo"]
 
 
 def test_demo_writes_the_whole_job(demo_out):

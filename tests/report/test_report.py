@@ -4,15 +4,12 @@ from __future__ import annotations
 
 import json
 
-from stillhook.cli import main
 
-
-def test_report_cli_writes_the_folder(minimal_project_file, tmp_path, capsys):
+def test_report_cli_writes_the_folder(pipeline_runs):
     # the smallest project a user can write ([rig] and [drive] only) must give a full report
-    out = tmp_path / "rep"
-    assert main(["report", str(minimal_project_file), "--out", str(out), "--grid", "3", "3", "--no-check",
-                 "--json"]) == 0
-    data = json.loads(capsys.readouterr().out)
+    # (stillhook report --grid 3 3 --no-check --json, run once per session in tests/conftest.py)
+    out, status, data = pipeline_runs["report"]
+    assert status == 0
     assert data["problems"] == {}
     assert {"report.html", "report.json", "figures/sensitivity.png", "figures/time_response.svg"} <= set(data["files"])
     page = (out / "report.html").read_text(encoding="utf-8")

@@ -7,9 +7,11 @@ import json
 import numpy as np
 import pytest
 
+from stillhook.model.lookup import schedule_rows
 from stillhook.project import load_project, project_from_dict
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.envelope_design import design_for_project, schedule_for_project, schedule_ratio
-from stillhook.shaping.residual_map import payload_participations, residual_ratio
+from stillhook.shaping.residual_map import mode_shares, payload_participations, residual_ratio
 
 
 @pytest.fixture(scope="module")
@@ -23,21 +25,20 @@ def dense_grid(env, nL=97, nm=89):
     return np.linspace(a, b, nL), np.linspace(c, d, nm)
 
 
-def test_participations_match_the_rig_eigen_solution(demo_project):
-    # The vectorized participations must equal stillhook.model.rig.Rig.modes() (generalized eigenproblem
-    # K phi = w^2 M phi, Kibble & Berkshire, Classical Mechanics, 2004) at every point checked.
+def test_participations_hold_the_quasi_static_lean_and_an_empty_hook_has_one_mode(demo_project):
+    # The grid comes from the one batch decomposition (checked against Rig.modes() in
+    # tests/model/test_modal_batch.py). Physical law: the static offsets of both modes add up to the
+    # quasi-static lean -a (L1 + L2)/g.
     env = demo_project.envelope
-    Ls, ms = np.array([1.2, 3.3, 9.5]), np.array([5.0, 70.0, 400.0, 1600.0])
+    Ls, ms = np.array([1.2, 3.3, 9.5]), np.array([0.0, 70.0, 400.0, 1600.0])
     F, P = payload_participations(env, Ls, ms)
-    for i, L in enumerate(Ls):
-        for j, m in enumerate(ms):
-            modes = env.rig(L, m).modes()
-            np.testing.assert_allclose(F[i, j], [md.frequency_hz for md in modes], rtol=1e-10)
-            np.testing.assert_allclose(P[i, j], [md.payload_participation_m_per_m_s2 for md in modes],
-                                       rtol=1e-8, atol=1e-12)
-    # physical law: the static offsets of both modes add up to the quasi-static lean -a (L1 + L2)/g
+    assert F.shape == P.shape == (3, 4, 2)
     lean = -(Ls[:, None] + env.rigging_length_m) / env.gravity_m_s2 * np.ones((1, ms.size))
     np.testing.assert_allclose(P.sum(axis=-1), lean, rtol=1e-10)
+    # an empty hook (0 kg): one mode, the rigging in line, as the Rig model has it
+    assert np.all(P[:, 0, 1] == 0.0)
+    _, shares = mode_shares(env, Ls, ms)
+    assert np.all(shares[:, 0, 0] == 1.0)
 
 
 def test_demo_treats_the_high_mode_and_says_why(demo_project, demo_design):
@@ -67,10 +68,9 @@ def test_demo_schedule_rows_lookup_and_between_rows(demo_project, demo_design):
     assert L[0] == env.rope_length_range_m[0] and L[-1] == env.rope_length_range_m[1]
     assert np.all(np.diff(L) > 0) and 2 <= L.size <= demo_project.design["max_schedule_rows"]
     assert all(s.on_grid(sched.cycle_s) and np.all(s.amplitudes >= 0) for s in sched.shapers)
-    # lookup rule: nearest row, the longer row on an exact tie
+    # lookup: the one rule of stillhook.model.lookup (checked against its definition in test_lookup.py)
     probe = np.linspace(L[0] - 0.5, L[-1] + 0.5, 1001)
-    nearest = np.array([int(np.argmin(np.abs(L - x) - 1e-12 * np.arange(L.size))) for x in probe])
-    np.testing.assert_array_equal(sched.row_for(probe), nearest)
+    np.testing.assert_array_equal(sched.row_for(probe), schedule_rows(L, probe, "nearest"))
     assert sched.row_for(0.5 * (L[0] + L[1])) == 1
     # the tolerance holds between rows too: dense rope lengths, each using its row
     Ls, ms = dense_grid(env, 401, 41)
@@ -79,19 +79,17 @@ def test_demo_schedule_rows_lookup_and_between_rows(demo_project, demo_design):
     assert sched.shapers[0].duration_s < demo_design.shaper.duration_s
 
 
-def test_design_as_dict_is_json_and_deterministic(demo_project, demo_design, monkeypatch):
-    import stillhook.shaping.band_design as shaper_opt
-    import stillhook.shaping.envelope_design as design
-
+def test_design_as_dict_is_json_and_deterministic(demo_project, demo_design):
     a = json.dumps(demo_design.as_dict(), allow_nan=False, sort_keys=False)
-    # empty the design caches so the second design is really computed again
-    monkeypatch.setattr(design, "_CACHE", {})
-    monkeypatch.setattr(shaper_opt, "_MEMO", {})
-    b = json.dumps(design_for_project(demo_project).as_dict(), allow_nan=False)
+    # empty the design caches so the second design is really computed again (restored afterwards)
+    with DESIGN_CACHE.emptied():
+        assert sum(DESIGN_CACHE.sizes().values()) == 0
+        b = json.dumps(design_for_project(demo_project).as_dict(), allow_nan=False)
     assert a == b
     d = json.loads(a)
     assert d["impulses"][0] == {"time_s": 0.0, "amplitude": d["impulses"][0]["amplitude"], "delay_cycles": 0}
-    assert d["schedule"]["lookup_rule"] == "nearest" and len(d["cautions"]) == 4
+    assert d["schedule"]["lookup_rule"] == "nearest"
+    assert "cautions" not in d  # added at the output edge (CLI, report, emitted files), not by the design
 
 
 def test_minimal_project_default_keeps_sway_within_five_percent(minimal_project_file):

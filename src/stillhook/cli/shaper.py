@@ -51,6 +51,7 @@ def run(args: argparse.Namespace) -> int:
         return _run_project(args)
     if args.method is None:
         raise ConfigError("missing --method; allowed: " + ", ".join(METHODS) + " (or give a project file)")
+    from stillhook.cautions import CAUTIONS
     from stillhook.shaping.request import shaper_request
 
     out = shaper_request(method=args.method, freqs_hz=args.frequency_hz or [], bands_hz=args.band or [],
@@ -58,7 +59,7 @@ def run(args: argparse.Namespace) -> int:
                          tolerance_pct=5.0 if args.tolerance is None else args.tolerance,
                          cycle_s=args.cycle_s, remedy=args.remedy)
     if args.json:
-        print_json(out)
+        print_json({**out, "cautions": list(CAUTIONS)})
         return 0
     _print_request(out)
     print_cautions()
@@ -114,12 +115,13 @@ def _print_request(out: dict) -> None:
 
 
 def _run_project(args) -> int:
+    from stillhook.cautions import CAUTIONS
     from stillhook.project import load_project_or_demo
     from stillhook.shaping.envelope_design import design_for_project
 
     project = load_project_or_demo(args.project)
     d = design_for_project(project)
-    out = {"project": project.name, "digest": project.digest, **d.as_dict()}
+    out = {"project": project.name, "digest": project.digest, **d.as_dict(), "cautions": list(CAUTIONS)}
     if args.json:
         print_json(out)
         return 0
@@ -135,8 +137,10 @@ def _run_project(args) -> int:
           f"(rope {d.worst_at[0]:.4g} m, payload {d.worst_at[1]:.5g} kg); worst V per mode: "
           + ", ".join(_pct(v) for v in d.worst_vibration))
     if d.schedule is not None:
+        from stillhook.model.lookup import rule_words
+
         s = d.schedule
-        print(f"\nLength schedule ({s.reason}; lookup: nearest row, the longer row on a tie):")
+        print(f"\nLength schedule ({s.reason}; lookup: {rule_words(s.lookup_rule)}):")
         print(format_table(["row", "rope m", "serves from m", "to m", "duration s", "impulses", "high mode"],
                            [[i + 1, float(L), a, b, sh.duration_s, sh.n_impulses, "yes" if h else "no"]
                             for i, (L, sh, h, (a, b)) in enumerate(zip(s.rope_lengths_m, s.shapers,

@@ -22,6 +22,7 @@ import cffi
 import numpy as np
 
 from stillhook.errors import EmitError
+from stillhook.firmware.qformat import SAMPLE_C_TYPES, WIDE_C_TYPES
 from stillhook.firmware.runtime import RUNTIME_FILES, runtime_dir
 
 __all__ = ["CRuntime", "load_emitted", "runtime_cdef"]
@@ -62,8 +63,6 @@ def runtime_cdef(folder: Path | None = None) -> str:
         out.append(text.strip())
     return "\n".join(out) + "\n"
 
-_CTYPE = {"q15": "int16_t", "q31": "int32_t"}
-_SLOT_CTYPE = {"q15": "int32_t", "q31": "int64_t"}
 _NPTYPE = {"q15": np.int16, "q31": np.int32}
 
 
@@ -105,7 +104,7 @@ class CRuntime:
         ffi, lib, p, f = self.ffi, self.lib, self.prefix, self.fmt
         self._shaper = ffi.new(f"shk_shaper_{f}_t *")
         n = self.manifest["ring_len"]
-        self._ring = ffi.new(f"{_SLOT_CTYPE[f]}[]", n)
+        self._ring = ffi.new(f"{WIDE_C_TYPES[f]}[]", n)
         table = getattr(lib, f"{p}_shaper_table_ptr")()
         st = getattr(lib, f"shk_shaper_{f}_init")(self._shaper, table, self._ring, n)
         if st != 0:
@@ -114,7 +113,7 @@ class CRuntime:
         if "notch" in self.manifest:
             nf = self.manifest["notch"]["format"]
             self._notch = ffi.new(f"shk_biquad_{nf}_t *")
-            self._state = ffi.new(f"{_CTYPE[nf]}[]", 4 * self.manifest["notch"]["stages"])
+            self._state = ffi.new(f"{SAMPLE_C_TYPES[nf]}[]", 4 * self.manifest["notch"]["stages"])
             st = getattr(lib, f"shk_biquad_{nf}_init")(self._notch, getattr(lib, f"{p}_notch_table_ptr")(),
                                                        self._state, 4 * self.manifest["notch"]["stages"])
             if st != 0:
@@ -148,8 +147,8 @@ class CRuntime:
         xs = np.ascontiguousarray(x, dtype=_NPTYPE[self.fmt])
         y = np.empty_like(xs)
         f = self.fmt
-        getattr(self.lib, f"shk_shaper_{f}_block")(self._shaper, self.ffi.from_buffer(f"{_CTYPE[f]}[]", xs),
-                                                    self.ffi.from_buffer(f"{_CTYPE[f]}[]", y), xs.size)
+        getattr(self.lib, f"shk_shaper_{f}_block")(self._shaper, self.ffi.from_buffer(f"{SAMPLE_C_TYPES[f]}[]", xs),
+                                                    self.ffi.from_buffer(f"{SAMPLE_C_TYPES[f]}[]", y), xs.size)
         return y.astype(np.int64)
 
     def shaper_run(self, x, rows) -> np.ndarray:
@@ -171,8 +170,8 @@ class CRuntime:
         nf = self.manifest["notch"]["format"]
         xs = np.ascontiguousarray(x, dtype=_NPTYPE[nf])
         y = np.empty_like(xs)
-        getattr(self.lib, f"shk_biquad_{nf}_block")(self._notch, self.ffi.from_buffer(f"{_CTYPE[nf]}[]", xs),
-                                                    self.ffi.from_buffer(f"{_CTYPE[nf]}[]", y), xs.size)
+        getattr(self.lib, f"shk_biquad_{nf}_block")(self._notch, self.ffi.from_buffer(f"{SAMPLE_C_TYPES[nf]}[]", xs),
+                                                    self.ffi.from_buffer(f"{SAMPLE_C_TYPES[nf]}[]", y), xs.size)
         return y.astype(np.int64)
 
 

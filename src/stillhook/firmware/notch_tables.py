@@ -1,21 +1,11 @@
-"""Notch coefficients for the fixed-point runtime: rounding with exact DC gain, and the shift check.
+"""Notch coefficients for the fixed-point runtime: the stored integers and the shift check.
 
-Rounding starts from :func:`stillhook.notch.rounding.quantize_sos` (the notch module's own rounding,
-so both report the same grid) and then fixes the DC gain exactly. With integers B0, B1, B2, A1, A2
-in scipy's sign convention and N = 2^(F - post_shift) standing for 1.0, a section's DC gain is
-
-    (B0 + B1 + B2) / (N + A1 + A2),
-
-which is exactly 1 when B0 + B1 + B2 = N + A1 + A2. A speed filter with DC gain 1 + e makes the
-trolley travel (1 + e) times as far, so this is worth one integer of adjustment: B1 keeps its
-rounded value, B0 and B2 share the remainder T = N + A1 + A2 - B1 around their rounded difference
-(B0 - B2), and when T has the wrong parity A2 moves by one unit toward its exact value. For the
-notches of :mod:`stillhook.notch.design` (b1 = a1, b0 + b2 = 1 + a2, b0 = b2 for a true null) this keeps
-the numerator symmetric, so the zeros stay on the unit circle and the notch stays infinitely deep.
-
-Then each section's notch frequency (angle of its zeros, as the notch module measures it) is
-compared with the exact design. A shift beyond the tolerance, a lost notch (real zeros) or a pole on
-or outside the unit circle fails the format.
+The integers are those of the one rounding analysis, :func:`stillhook.notch.rounding.quantize_sos`
+(nearest with ties toward +infinity, then exact DC gain; see that module), with the post shift
+limited to what the C runtime accepts (:data:`stillhook.firmware.qformat.MAX_POST_SHIFT`), put in
+CMSIS-DSP order and sign. Each section's notch frequency (angle of its zeros) is compared with the
+exact design (:func:`stillhook.notch.rounding.quantized_notch_shift`). A shift beyond the tolerance,
+a lost notch (real zeros) or a pole on or outside the unit circle fails the format.
 
 Notes
 -----
@@ -31,9 +21,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from stillhook.errors import EmitError
-from stillhook.firmware.qformat import FRACTION_BITS, MAX_POST_SHIFT, MAX_STAGES, BiquadTable
-from stillhook.notch.rounding import auto_post_shift, quantize_sos, section_notch_frequencies_hz
+from stillhook.errors import DesignError, EmitError
+from stillhook.firmware.qformat import MAX_POST_SHIFT, MAX_STAGES, BiquadTable
+from stillhook.notch.rounding import quantize_sos, quantized_notch_shift
 
 __all__ = ["NotchCheck", "choose_notch_format", "dc_gain", "quantize_notch"]
 
@@ -97,22 +87,6 @@ class NotchCheck:
         }
 
 
-def _dc_exact(stored: np.ndarray, sos: np.ndarray, scale: float) -> np.ndarray:
-    """Adjust rounded [B0, B1, B2, A1, A2] rows (scipy sign) so B0 + B1 + B2 = N + A1 + A2 (docstring)."""
-    out = stored.copy()
-    N = int(round(scale))
-    for i, row in enumerate(sos):
-        b0, b1, b2, a1, a2 = (int(v) for v in out[i])
-        T = N + a1 + a2 - b1
-        d = b0 - b2
-        if (T + d) % 2:
-            exact_a2 = row[5] * scale
-            a2 += 1 if exact_a2 > a2 else -1  # the unit toward the exact value
-            T = N + a1 + a2 - b1
-        out[i] = [(T + d) // 2, b1, (T - d) // 2, a1, a2]
-    return out
-
-
 def quantize_notch(sos, fmt: str, cycle_s: float, tolerance: float) -> NotchCheck:
     """Round a notch cascade to ``fmt`` with exact DC gain, and measure how far each notch moves.
 
@@ -135,27 +109,17 @@ def quantize_notch(sos, fmt: str, cycle_s: float, tolerance: float) -> NotchChec
     a = np.asarray(sos, dtype=float)
     if a.ndim != 2 or a.shape[1] != 6 or not 1 <= a.shape[0] <= MAX_STAGES:
         raise EmitError(f"notch sos has shape {a.shape}; allowed: (n, 6) with 1 <= n <= {MAX_STAGES}")
-    F = FRACTION_BITS[fmt]
-    lo, hi = -(1 << F), (1 << F) - 1
-    first = auto_post_shift(a, fmt)
-    for post_shift in range(first, MAX_POST_SHIFT[fmt] + 1):
-        scale = 2.0 ** (F - post_shift)
-        _, stored, _ = quantize_sos(a, fmt, post_shift)
-        stored = _dc_exact(stored, a, scale)
-        cmsis = np.column_stack([stored[:, :3], -stored[:, 3:]])  # feedback added: negate a1, a2
-        if np.all(cmsis >= lo) and np.all(cmsis <= hi):
-            break
-    else:
+    try:
+        _, stored, post_shift = quantize_sos(a, fmt, max_post_shift=MAX_POST_SHIFT[fmt])
+    except DesignError as exc:
         raise EmitError(f"notch coefficients up to {np.max(np.abs(a)):g} do not fit {fmt} with a post shift "
-                        f"of at most {MAX_POST_SHIFT[fmt]}")
-    table = BiquadTable(fmt, cmsis.astype(np.int64), post_shift)
-    sos_q = table.sos()
-    f = section_notch_frequencies_hz(a, cycle_s)
-    fq = section_notch_frequencies_hz(sos_q, cycle_s)
-    lost = 4.0 * sos_q[:, 0] * sos_q[:, 2] - sos_q[:, 1] ** 2 <= 0.0
-    rel = np.where(lost, -1.0, (fq - f) / np.where(f > 0, f, 1.0))
-    radii = np.array([float(np.max(np.abs(np.roots(row[3:])))) for row in sos_q])
-    return NotchCheck(table, f, fq, rel, lost, radii, float(tolerance))
+                        f"of at most {MAX_POST_SHIFT[fmt]}") from exc
+    cmsis = np.column_stack([stored[:, :3], -stored[:, 3:]])  # feedback added: negate a1, a2
+    shifts = quantized_notch_shift(a, fmt, cycle_s, post_shift=post_shift)
+    return NotchCheck(BiquadTable(fmt, cmsis.astype(np.int64), post_shift),
+                      np.array([q.frequency_hz for q in shifts]), np.array([q.quantized_frequency_hz for q in shifts]),
+                      np.array([q.relative_shift for q in shifts]), np.array([q.lost for q in shifts]),
+                      np.array([q.pole_radius for q in shifts]), float(tolerance))
 
 
 def choose_notch_format(sos, fmt: str, cycle_s: float, tolerance: float, *,

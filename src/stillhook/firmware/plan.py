@@ -47,7 +47,7 @@ from stillhook.firmware.render_feedback import render_feedback_c, render_feedbac
 from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
 from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
-from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds
+from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds, rope_length_counts
 from stillhook.notch.design import notch_for_project
 from stillhook.outputs import to_json, write_files
 from stillhook.project import SCHEMA
@@ -153,7 +153,7 @@ class EmitPlan:
         }
 
     def manifest(self, files: list[str]) -> dict:
-        """The manifest.json content (deterministic key order)."""
+        """The manifest.json content but the cautions, which :func:`render_files` adds (deterministic key order)."""
         s = self.schedule
         out = {
             "tool": "stillhook",
@@ -203,7 +203,6 @@ class EmitPlan:
                                              "drive": t.frac_d}}
         out["sizes"] = self.sizes()
         out["files"] = sorted(files)
-        out["cautions"] = list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if self.feedback is not None else [])
         return out
 
 
@@ -262,15 +261,43 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
     if not math.isclose(float(schedule.cycle_s), cycle_s, rel_tol=1e-9):
         raise EmitError(f"schedule is for a {schedule.cycle_s:g} s cycle but [drive] cycle_s = {cycle_s:g} s")
 
-    fmt_out, reason, check = fmt_requested, None, None
-    want_notch = notch_requested(project) if include_notch is None else include_notch
-    if want_notch or notch_sos is not None:
-        if notch_sos is None:
-            notch_sos = notch_for_project(project).sos
-        check, reason = choose_notch_format(notch_sos, fmt_requested, cycle_s, fw["max_notch_shift_pct"] / 100.0,
-                                            escalate=bool(fw["escalate_to_q31"]) and not forced)
-        fmt_out = check.table.fmt
+    check, reason = _notch_check(project, fmt_requested, forced, cycle_s, notch_sos, include_notch)
+    fmt_out = check.table.fmt if check is not None else fmt_requested
+    rows, table = _shaper_rows(schedule, cycle_s, fmt_out)
+    rule, sched = _schedule_table(project.envelope, schedule, float(fw["rope_length_lsb_m"]))
+    fb_tables, fb_summary = _feedback(project, float(fw["rope_length_lsb_m"]))
+    plan = EmitPlan(prefix, fmt_out, fmt_requested, reason, cycle_s, project.digest, project.name,
+                    project.envelope.describe(), float(schedule.tolerance), rule, tuple(rows), table, sched, check,
+                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "", fb_tables, fb_summary)
+    _check_ram(plan)
+    return plan
 
+
+def _feedback(project, lsb: float):
+    """(FeedbackTables, check summary) when the project has ``[feedback]``, else (None, None)."""
+    if "feedback" not in project.given_sections:
+        return None, None
+    env = project.envelope
+    design = feedback_for_project(project)
+    check = check_envelope(design, env, project.feedback["min_damping_ratio"])
+    summary = {**check.as_dict(), "sensor_kind": design.sensor_kind, "delay_cycles": design.delay_cycles}
+    return feedback_tables(design, env, project.sensor, lsb), summary
+
+
+def _notch_check(project, fmt_requested: str, forced: bool, cycle_s: float, notch_sos, include_notch):
+    """(NotchCheck or None, reason for a format change or None): the notch, rounded, when one is emitted."""
+    fw = project.firmware
+    want_notch = notch_requested(project) if include_notch is None else include_notch
+    if not (want_notch or notch_sos is not None):
+        return None, None
+    if notch_sos is None:
+        notch_sos = notch_for_project(project).sos
+    return choose_notch_format(notch_sos, fmt_requested, cycle_s, fw["max_notch_shift_pct"] / 100.0,
+                               escalate=bool(fw["escalate_to_q31"]) and not forced)
+
+
+def _shaper_rows(schedule, cycle_s: float, fmt: str) -> tuple[list[ShaperRow], ShaperTable]:
+    """Each schedule row's shaper quantized (integer amplitudes, whole-cycle delays), and the runtime table."""
     rows_m = np.asarray(schedule.rope_lengths_m, dtype=float)
     if rows_m.ndim != 1 or rows_m.size != len(schedule.shapers) or rows_m.size == 0:
         raise EmitError("schedule needs one rope length per shaper (at least one row)")
@@ -280,46 +307,40 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
     for L, sh in zip(rows_m, schedule.shapers, strict=True):
         if not sh.on_grid(cycle_s):
             raise EmitError(f"the shaper for {L:g} m rope is not on the {cycle_s:g} s drive-cycle grid")
-        a, d = quantize_shaper(sh, cycle_s, fmt_out)
+        a, d = quantize_shaper(sh, cycle_s, fmt)
         pairs.append((a, d))
         rows.append(ShaperRow(float(L), tuple(int(v) for v in a), tuple(int(v) for v in d),
                               getattr(sh, "name", "")))
-    table = ShaperTable.from_rows(pairs, fmt_out)
+    return rows, ShaperTable.from_rows(pairs, fmt)
 
-    env = project.envelope
-    lsb = float(fw["rope_length_lsb_m"])
+
+def _schedule_table(env, schedule, lsb: float) -> tuple[str, ScheduleTable]:
+    """(lookup rule, ScheduleTable): the row rule as integer thresholds on rope-length counts of ``lsb`` m."""
     lo_m, hi_m = env.rope_length_range_m
     if hi_m / lsb >= 2**32:
         raise EmitError(f"rope length {hi_m:g} m does not fit a uint32 count of {lsb:g} m; "
                         "allowed: a larger [firmware] rope_length_lsb_m")
     rule = _schedule_rule(schedule)
-    th = lookup_thresholds(rows_m, rule, lsb)
-    sched = ScheduleTable(th, int(math.floor(lo_m / lsb + 0.5)), int(math.floor(hi_m / lsb + 0.5)), lsb)
+    th = lookup_thresholds(np.asarray(schedule.rope_lengths_m, dtype=float), rule, lsb)
+    sched = ScheduleTable(th, int(rope_length_counts(lo_m, lsb)), int(rope_length_counts(hi_m, lsb)), lsb)
     if th.size and (np.any(np.diff(th) <= 0) or th[0] <= sched.length_min or th[-1] > sched.length_max):
         raise EmitError(f"schedule rows are closer than one input count ({lsb:g} m) or outside the rope "
                         f"range [{lo_m:g}, {hi_m:g}] m; allowed: a smaller [firmware] rope_length_lsb_m "
                         "or fewer [design] max_schedule_rows")
+    return rule, sched
 
-    fb_tables, fb_summary = None, None
-    if "feedback" in project.given_sections:
-        fb_design = feedback_for_project(project)
-        fb_tables = feedback_tables(fb_design, env, project.sensor, lsb)
-        fb_check = check_envelope(fb_design, env, project.feedback["min_damping_ratio"])
-        fb_summary = {**fb_check.as_dict(), "sensor_kind": fb_design.sensor_kind,
-                      "delay_cycles": fb_design.delay_cycles}
-    plan = EmitPlan(prefix, fmt_out, fmt_requested, reason, cycle_s, project.digest, project.name,
-                    env.describe(), float(schedule.tolerance), rule, tuple(rows), table, sched, check,
-                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "", fb_tables, fb_summary)
+
+def _check_ram(plan: EmitPlan) -> None:
+    """EmitError with the numbers when the ring and the notch state exceed ``[firmware] ram_budget_bytes``."""
     sizes = plan.sizes()
     if sizes["ram_bytes"] > plan.ram_budget_bytes:
-        longest = max(rows, key=lambda r: r.delays_cycles[-1])
+        longest = max(plan.rows, key=lambda r: r.delays_cycles[-1])
         raise EmitError(
-            f"the design needs {sizes['ram_bytes']} bytes of RAM (accumulator ring {table.ring_len} slots x "
-            f"{SLOT_BYTES[fmt_out]} bytes = {sizes['ring_bytes']} for the longest shaper, "
-            f"{longest.delays_cycles[-1] * cycle_s:g} s at {longest.rope_length_m:g} m rope, + "
+            f"the design needs {sizes['ram_bytes']} bytes of RAM (accumulator ring {plan.shaper.ring_len} slots x "
+            f"{SLOT_BYTES[plan.fmt]} bytes = {sizes['ring_bytes']} for the longest shaper, "
+            f"{longest.delays_cycles[-1] * plan.cycle_s:g} s at {longest.rope_length_m:g} m rope, + "
             f"{sizes['notch_state_bytes']} notch state) but [firmware] ram_budget_bytes = "
             f"{plan.ram_budget_bytes}; allowed: a budget of at least {sizes['ram_bytes']} bytes")
-    return plan
 
 
 def render_files(plan: EmitPlan) -> dict[str, str]:
@@ -334,7 +355,8 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
         files[f"{p}_feedback.h"] = render_feedback_h(plan, plan.feedback, plan.feedback_summary)
         files[f"{p}_feedback.c"] = render_feedback_c(plan, plan.feedback)
     names = sorted([*files, "manifest.json"])
-    files["manifest.json"] = to_json(plan.manifest(names))
+    cautions = list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if plan.feedback is not None else [])
+    files["manifest.json"] = to_json({**plan.manifest(names), "cautions": cautions})
     return {k: files[k] for k in sorted(files)}
 
 

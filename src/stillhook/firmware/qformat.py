@@ -5,7 +5,8 @@ check the C against these functions.
 
 Q formats: Q15 samples are int16 values n / 2^15, Q31 samples int32 values n / 2^31.
 
-Rounding, wherever a result is narrowed (round to nearest, ties toward +infinity)::
+Rounding, wherever a result is narrowed (round to nearest, ties toward +infinity; the one rule of
+:mod:`stillhook.fixed_point`, re-exported here)::
 
     round_shift(v, s) = floor((v + 2^(s-1)) / 2^s)
 
@@ -37,18 +38,21 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from stillhook.errors import ConfigError, EmitError
+from stillhook.fixed_point import FRACTION_BITS, round_half_up, round_shift
 from stillhook.model.lookup import rope_length_counts, rows_for_counts
 
 __all__ = [
     "BiquadModel", "BiquadTable", "FRACTION_BITS", "MAX_POST_SHIFT", "MAX_STAGES", "MAX_TAPS", "SAMPLE_BYTES",
-    "STATUS_CLAMPED_HIGH", "STATUS_CLAMPED_LOW", "STATUS_OK", "ScheduleTable", "fraction_bits",
-    "quantize_amplitudes", "round_shift", "sample_limits", "saturate", "to_fixed", "to_float",
+    "SAMPLE_C_TYPES", "STATUS_CLAMPED_HIGH", "STATUS_CLAMPED_LOW", "STATUS_OK", "ScheduleTable", "WIDE_C_TYPES",
+    "fraction_bits", "quantize_amplitudes", "round_shift", "sample_limits", "saturate", "to_fixed", "to_float",
 ]
 
-#: Fractional bits F of each format.
-FRACTION_BITS = {"q15": 15, "q31": 31}
 #: Bytes per sample of each format.
 SAMPLE_BYTES = {"q15": 2, "q31": 4}
+#: C type of a sample of each format (the emitted tables and the cffi builds alike).
+SAMPLE_C_TYPES = {"q15": "int16_t", "q31": "int32_t"}
+#: C type one width up: shaper amplitudes and accumulator ring slots.
+WIDE_C_TYPES = {"q15": "int32_t", "q31": "int64_t"}
 #: C limits mirrored from codegen/ (shk_shaper.h, shk_biquad.h).
 MAX_TAPS = 4096
 MAX_STAGES = 64
@@ -74,11 +78,6 @@ def sample_limits(fmt: str) -> tuple[int, int]:
 
 
 # -- scalar/array arithmetic ------------------------------------------------------------------
-def round_shift(v, s: int):
-    """round(v / 2^s), ties toward +infinity: floor((v + 2^(s-1)) / 2^s), s >= 1."""
-    return (v + (1 << (s - 1))) >> s
-
-
 def saturate(v, fmt: str):
     """Clamp v to the sample range of ``fmt`` (ints or int64 arrays)."""
     lo, hi = sample_limits(fmt)
@@ -106,7 +105,7 @@ def to_fixed(x, fmt: str) -> np.ndarray:
         raise ConfigError("values to quantize must be finite")
     lo, hi = sample_limits(fmt)
     # floor(x 2^F + 1/2): x * 2^F is exact in binary floating point
-    q = np.floor(np.clip(a * 2.0**f, lo - 1.0, hi + 1.0) + 0.5)
+    q = round_half_up(np.clip(a * 2.0**f, lo - 1.0, hi + 1.0))
     return np.clip(q, lo, hi).astype(np.int64)
 
 

@@ -8,8 +8,8 @@ commanded distance). It exits 0 only when everything matches.
 
 from __future__ import annotations
 
-from stillhook.firmware.qformat import FRACTION_BITS
-from stillhook.firmware.render_c import SAMPLE_T, SLOT_T, c_array, c_comment, c_lit, c_m
+from stillhook.firmware.qformat import FRACTION_BITS, SAMPLE_C_TYPES, WIDE_C_TYPES
+from stillhook.firmware.render_c import c_array, c_comment, c_lit, c_m
 from stillhook.firmware.vectors import SEGMENT_CYCLES, selftest_vectors
 from stillhook.version import __version__
 
@@ -149,7 +149,7 @@ def _fill(template: str, **names: str) -> str:
 def render_selftest(plan) -> str:
     """``<prefix>_selftest.c``: host program, exit 0 only when every output is bit-exact."""
     p, f = plan.prefix, plan.fmt
-    st = SAMPLE_T[f]
+    st = SAMPLE_C_TYPES[f]
     v = selftest_vectors(plan)
     names = {"P": p, "F": f, "M": p.upper()}
     out = [c_comment([
@@ -166,12 +166,12 @@ def render_selftest(plan) -> str:
         "static const uint32_t seg_row[N_SEG] = {", c_array(v.segment_rows, "uint32_t"), "};",
         f"static const {st} shaper_in[N_SEG * SEG] = {{", c_array(v.shaper_in, st), "};",
         f"static const {st} shaper_out[N_SEG * SEG] = {{", c_array(v.shaper_out, st), "};",
-        f"static {SLOT_T[f]} ring[{c_m(plan, 'RING_LEN')}];", f"static {st} work[SEG];",
+        f"static {WIDE_C_TYPES[f]} ring[{c_m(plan, 'RING_LEN')}];", f"static {st} work[SEG];",
         _fill(_SHAPER_CHECK, **names),
         _fill(_DISTANCE_CHECK, S=st, XMAXL=c_lit(distance_check_amplitude(plan), "int64_t"), **names)]
     notch_call = ""
     if plan.notch is not None:
-        nst = SAMPLE_T[plan.notch.table.fmt]
+        nst = SAMPLE_C_TYPES[plan.notch.table.fmt]
         out += [f"#define N_NOTCH {v.notch_in.size}u",
                 f"static const {nst} notch_in[N_NOTCH] = {{", c_array(v.notch_in, nst), "};",
                 f"static const {nst} notch_out[N_NOTCH] = {{", c_array(v.notch_out, nst), "};",

@@ -7,12 +7,16 @@ from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
     "Envelope": "stillhook.model.envelope",
+    "BatchModes": "stillhook.model.modal_batch",
+    "batch_modes": "stillhook.model.modal_batch",
     "Mode": "stillhook.model.rig",
     "Rig": "stillhook.model.rig",
     "mode_frequencies_rad_s": "stillhook.model.rig",
     "STANDARD_GRAVITY_M_S2": "stillhook.model.rig",
     "DEFAULT_DAMPING_RATIO": "stillhook.model.rig",
     "LOOKUP_RULES": "stillhook.model.lookup",
+    "RULE_WORDS": "stillhook.model.lookup",
+    "rule_words": "stillhook.model.lookup",
     "lookup_thresholds": "stillhook.model.lookup",
     "rope_length_counts": "stillhook.model.lookup",
     "row_edges_m": "stillhook.model.lookup",

@@ -15,12 +15,21 @@ from __future__ import annotations
 import numpy as np
 
 from stillhook.errors import ConfigError
+from stillhook.fixed_point import round_half_up
 
-__all__ = ["LOOKUP_RULES", "lookup_thresholds", "rope_length_counts", "row_edges_m", "rows_for_counts",
-           "schedule_rows"]
+__all__ = ["LOOKUP_RULES", "RULE_WORDS", "lookup_thresholds", "rope_length_counts", "row_edges_m", "rows_for_counts",
+           "rule_words", "schedule_rows"]
 
-#: Lookup rules a schedule may use.
-LOOKUP_RULES = ("nearest", "at_or_below")
+#: Lookup rules a schedule may use, with the words that state each in outputs.
+RULE_WORDS = {"nearest": "nearest row, longer on a tie", "at_or_below": "longest row at or below the length"}
+LOOKUP_RULES = tuple(RULE_WORDS)
+
+
+def rule_words(rule: str) -> str:
+    """The rule in words, for outputs (e.g. 'nearest row, longer on a tie')."""
+    if rule not in RULE_WORDS:
+        raise ConfigError(f"schedule lookup rule {rule!r} is not allowed; allowed: " + ", ".join(LOOKUP_RULES))
+    return RULE_WORDS[rule]
 
 
 def row_edges_m(row_lengths_m, rule: str = "nearest") -> np.ndarray:
@@ -28,14 +37,13 @@ def row_edges_m(row_lengths_m, rule: str = "nearest") -> np.ndarray:
     r = np.asarray(row_lengths_m, dtype=float).reshape(-1)
     if rule == "nearest":
         return 0.5 * (r[:-1] + r[1:])
-    if rule == "at_or_below":
-        return r[1:].copy()
-    raise ConfigError(f"schedule lookup rule {rule!r} is not allowed; allowed: " + ", ".join(LOOKUP_RULES))
+    rule_words(rule)  # ConfigError for an unknown rule
+    return r[1:].copy()
 
 
 def rope_length_counts(rope_length_m, lsb_m: float) -> np.ndarray:
     """The firmware's rope-length input: c = floor(L / lsb + 1/2) counts (round half up)."""
-    return np.floor(np.asarray(rope_length_m, dtype=float) / lsb_m + 0.5)
+    return round_half_up(np.asarray(rope_length_m, dtype=float) / lsb_m)
 
 
 def lookup_thresholds(row_lengths_m, rule: str, lsb_m: float) -> np.ndarray:

@@ -20,7 +20,7 @@ _EXPORTS = {
     "auto_post_shift": "stillhook.notch.rounding",
     "quantize_sos": "stillhook.notch.rounding",
     "section_notch_frequencies_hz": "stillhook.notch.rounding",
-    "FORMAT_BITS": "stillhook.notch.rounding",
+    "MAX_ANALYSIS_POST_SHIFT": "stillhook.notch.rounding",
     "cascade_tf": "stillhook.notch.transfer",
 }
 

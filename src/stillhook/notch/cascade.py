@@ -78,6 +78,10 @@ def sos_response(sos: np.ndarray, z: np.ndarray) -> np.ndarray:
 class NotchDesign:
     """A cascade of digital notches at the drive cycle.
 
+    A command filter (:class:`stillhook.sim.command_filter.CommandFilter`): ``apply``,
+    ``added_duration_s`` (the ring-out padding), ``mean_delay_s`` (the DC group delay),
+    ``residual_vibration``.
+
     Attributes
     ----------
     sos : ndarray (n, 6)
@@ -124,6 +128,16 @@ class NotchDesign:
         tau = sum(float(row[:3] @ k / row[:3].sum() - row[3:] @ k / row[3:].sum()) for row in self.sos)
         return tau * self.cycle_s
 
+    @property
+    def mean_delay_s(self) -> float:
+        """The centroid delay (s), command-filter interface."""
+        return self.centroid_delay_s
+
+    @property
+    def added_duration_s(self) -> float:
+        """The zero padding :meth:`apply` adds so the filter rings out (s), command-filter interface."""
+        return self.ring_out_samples() * self.cycle_s
+
     def frequency_response(self, freqs_hz) -> np.ndarray:
         """Complex response H(e^(j 2 pi f T)) of the cascade at frequencies (Hz), vectorized."""
         f = np.asarray(freqs_hz, dtype=float)
@@ -145,7 +159,7 @@ class NotchDesign:
         """Samples for every filter mode to decay to ``decay``: ceil(ln decay / ln r_max)."""
         return max(1, math.ceil(math.log(decay) / math.log(self.max_pole_radius)))
 
-    def apply(self, speed_m_s, *, decay: float = TAIL_DECAY) -> np.ndarray:
+    def apply(self, speed_m_s, cycle_s: float | None = None, *, decay: float = TAIL_DECAY) -> np.ndarray:
         """Filter a sampled speed command (scipy.signal.sosfilt, zero initial state).
 
         The command is first padded with ``ring_out_samples(decay)`` zeros so the filter rings
@@ -157,6 +171,8 @@ class NotchDesign:
         ----------
         speed_m_s : array_like, 1-D
             Speed samples (m/s) at the drive cycle.
+        cycle_s : float, optional
+            The command's sample period (s); it must be the cycle the cascade was designed for.
 
         Returns
         -------
@@ -165,6 +181,9 @@ class NotchDesign:
         v = np.asarray(speed_m_s, dtype=float)
         if v.ndim != 1 or len(v) == 0 or not np.all(np.isfinite(v)):
             raise ConfigError("speed_m_s must be a non-empty 1-D sequence of finite speeds (m/s)")
+        if cycle_s is not None and not math.isclose(cycle_s, self.cycle_s, rel_tol=1e-9):
+            raise ConfigError(f"a speed command sampled every {cycle_s!r} s cannot go through a notch designed "
+                              f"for a {self.cycle_s:g} s cycle; allowed: cycle_s = {self.cycle_s:g}")
         if not 0.0 < decay < 1.0:
             raise ConfigError(f"decay = {decay!r} is out of range; allowed: 0 < decay < 1")
         return sosfilt(self.sos, np.concatenate([v, np.zeros(self.ring_out_samples(decay))]))

@@ -57,8 +57,10 @@ import math
 import numpy as np
 
 from stillhook.errors import ConfigError, DesignError
+from stillhook.fixed_point import FRACTION_BITS
 from stillhook.notch.cascade import TAIL_DECAY, NotchDesign, NotchSection, sos_response
-from stillhook.notch.rounding import FORMAT_BITS, NotchShift, auto_post_shift, quantized_notch_shift
+from stillhook.notch.rounding import NotchShift, auto_post_shift, quantized_notch_shift
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = ["NotchDesign", "NotchSection", "design_notches", "notch_for_project", "quantized_notch_shift",
            "NotchShift", "band_centre_hz", "pole_damping_for_band", "notch_section", "TAIL_DECAY"]
@@ -221,15 +223,11 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
         tolerance with a derived width; poles not strictly inside the unit circle.
     """
     T = _number("cycle_s", cycle_s)
-    nyquist = 0.5 / T
     freqs = [freqs_hz] if np.ndim(freqs_hz) == 0 else list(freqs_hz)
     if not 1 <= len(freqs) <= 16:
         raise ConfigError(f"{len(freqs)} notch frequencies given; allowed: 1 to 16")
     freqs = [_number("notch frequency_hz", f) for f in freqs]
-    for f in freqs:
-        if f >= nyquist:
-            raise DesignError(f"notch frequency {f:g} Hz is at or above half the drive rate ({nyquist:g} Hz "
-                              f"for cycle_s = {T:g} s); allowed: 0 < f < {nyquist:g} Hz")
+    check_below_half_rate(freqs, T, what="notch frequency", strict=True)
     n = len(freqs)
     tol = _number("tolerance", tolerance, hi=1.0, allowed="a number in (0, 1)")
     zeta_cap = _number("max_pole_damping", max_pole_damping)
@@ -237,23 +235,41 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
     widths = _per_notch("width_hz", width_hz, n, "a finite number > 0 (Hz), or one per notch")
     depths = _per_notch("depth_db", depth_db, n, "a finite number > 0 (dB), or one per notch")
     for fmt in warn_formats:
-        if fmt not in FORMAT_BITS:
+        if fmt not in FRACTION_BITS:
             raise ConfigError(f"warn_formats entry {fmt!r} is not allowed; allowed: 'q15', 'q31'")
-    if bands_hz is None:
-        bands = [None] * n
-    else:
-        try:
-            bands = [tuple(b) for b in bands_hz]
-        except TypeError:
-            bands = []
-        if len(bands) != n or any(len(b) != 2 for b in bands):
-            raise ConfigError(f"bands_hz = {bands_hz!r} is not allowed; allowed: one (lo, hi) pair per notch ({n})")
-        bands = [(_number("band lower edge (Hz)", lo), _number("band upper edge (Hz)", hi)) for lo, hi in bands]
-        for lo, hi in bands:
-            if lo > hi or hi >= nyquist:
-                raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi < {nyquist:g} Hz "
-                                  "(half the drive rate)")
+    bands = _bands(bands_hz, n, T)
+    sos, params, capped = _sections(freqs, widths, depths, bands, T, tol, zeta_cap)
+    sections, warnings = _band_residuals(sos, params, T, tol, capped)
+    quantization, post_shift = {}, {}
+    for fmt in FRACTION_BITS:
+        post_shift[fmt] = auto_post_shift(sos, fmt)
+        quantization[fmt] = tuple(quantized_notch_shift(sos, fmt, T, post_shift=post_shift[fmt]))
+        if fmt in warn_formats:
+            warnings.extend(_quantization_warnings(fmt, quantization[fmt], shift_tol))
+    return NotchDesign(sos, T, tuple(sections), tol, quantization, post_shift, tuple(warnings))
 
+
+def _bands(bands_hz, n: int, T: float) -> list:
+    """The band each of ``n`` notches must cover: None each, or checked (lo, hi) pairs below half the rate."""
+    if bands_hz is None:
+        return [None] * n
+    try:
+        bands = [tuple(b) for b in bands_hz]
+    except TypeError:
+        bands = []
+    if len(bands) != n or any(len(b) != 2 for b in bands):
+        raise ConfigError(f"bands_hz = {bands_hz!r} is not allowed; allowed: one (lo, hi) pair per notch ({n})")
+    bands = [(_number("band lower edge (Hz)", lo), _number("band upper edge (Hz)", hi)) for lo, hi in bands]
+    for lo, hi in bands:
+        if lo > hi:
+            raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi")
+        check_below_half_rate([hi], T, what=f"the upper edge of band [{lo:g}, {hi:g}],", strict=True)
+    return bands
+
+
+def _sections(freqs, widths, depths, bands, T: float, tol: float, zeta_cap: float):
+    """(sos, params, capped): one prewarped section per notch, its (f0, zeta_p, zeta_z, depth, band),
+    and {notch index: why its derived width was capped}."""
     rows, params, notes = [], [], []
     for i, (f0, width, depth, band) in enumerate(zip(freqs, widths, depths, bands, strict=True)):
         d = 0.0 if depth is None else 10.0 ** (-depth / 20.0)
@@ -274,10 +290,12 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
                               "slower filter rate)")
         rows.append(row)
         params.append((f0, zeta_p, zeta_z, depth, eff_band))
-    sos = np.array(rows)
+    return np.array(rows), params, dict(notes)
 
+
+def _band_residuals(sos: np.ndarray, params, T: float, tol: float, capped: dict):
+    """(sections, warnings): each notch with the whole cascade's worst |H| over its band."""
     sections, warnings = [], []
-    capped = dict(notes)
     for i, (f0, zeta_p, zeta_z, depth, eff_band) in enumerate(params):
         grid = _band_grid(eff_band, T)
         worst = float(np.max(np.abs(_response(sos, grid, T))))
@@ -288,14 +306,7 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
             warnings.append(f"notch {i + 1} at {f0:.4g} Hz leaves up to {100 * worst:.3g} % residual sway over "
                             f"its band [{eff_band[0]:.4g}, {eff_band[1]:.4g}] Hz, above the "
                             f"{100 * tol:.3g} % tolerance{why}")
-
-    quantization, post_shift = {}, {}
-    for fmt in FORMAT_BITS:
-        post_shift[fmt] = auto_post_shift(sos, fmt)
-        quantization[fmt] = tuple(quantized_notch_shift(sos, fmt, T, post_shift=post_shift[fmt]))
-        if fmt in warn_formats:
-            warnings.extend(_quantization_warnings(fmt, quantization[fmt], shift_tol))
-    return NotchDesign(sos, T, tuple(sections), tol, quantization, post_shift, tuple(warnings))
+    return sections, warnings
 
 
 def _response(sos: np.ndarray, freqs_hz: np.ndarray, T: float) -> np.ndarray:
@@ -314,10 +325,6 @@ def _quantization_warnings(fmt: str, shifts, shift_tol: float) -> list[str]:
                        f"when the coefficients are rounded, beyond the {100 * shift_tol:.3g} % limit")
         if not q.pole_radius < 1.0:
             out.append(f"{label}: rounded poles reach radius {q.pole_radius:.6g}, the filter would not decay")
-        if not abs(q.dc_gain - 1.0) <= shift_tol:
-            gain = f"{q.dc_gain:.4g}" if math.isfinite(q.dc_gain) else "infinite"
-            out.append(f"{label}: rounded DC gain is {gain}, not 1, unless the generator restores "
-                       "b0 + b1 + b2 = 1 + a1 + a2 (a speed filter's DC gain scales the travelled distance)")
     return out
 
 
@@ -343,11 +350,8 @@ def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) 
     """
     T = project.drive["cycle_s"]
     bands = project.envelope.mode_bands_hz()
-    nyquist = 0.5 / T
     for i, (_lo, hi) in enumerate(bands):
-        if hi >= nyquist:
-            raise DesignError(f"sway mode {i + 1} reaches {hi:g} Hz, at or above half the drive rate "
-                              f"({nyquist:g} Hz); allowed: a drive cycle_s below {0.5 / hi:g} s")
+        check_below_half_rate([hi], T, what=f"sway mode {i + 1}'s highest frequency", strict=True)
     freqs = [band_centre_hz(lo, hi, T) for lo, hi in bands]
     width = project.notch["width_hz"] if width_hz is None else width_hz
     depth = project.notch["depth_db"] if depth_db is None else depth_db

@@ -25,7 +25,6 @@ import numpy as np
 
 from stillhook.errors import ConfigError
 from stillhook.model.lookup import row_edges_m, schedule_rows
-from stillhook.notch.cascade import NotchDesign
 from stillhook.sim.dynamics import simulate
 from stillhook.sim.profiles import project_move
 
@@ -106,7 +105,8 @@ def time_response_data(project, filters: dict, *, distance_m: float | None = Non
     ----------
     project : stillhook.project.Project
     filters : dict
-        ``{key: (label, filter)}``; a filter is a Shaper (on the drive-cycle grid) or a NotchDesign.
+        ``{key: (label, filter)}``; a filter is any :class:`stillhook.sim.command_filter.CommandFilter`
+        (a Shaper on the drive-cycle grid, a NotchDesign, ...) or None (left out).
         'unshaped' is always added first.
     distance_m : float, optional
         Overrides ``[move] distance_m``.
@@ -121,9 +121,7 @@ def time_response_data(project, filters: dict, *, distance_m: float | None = Non
     rig = project.envelope.nominal_rig
     runs = [("unshaped", "unshaped", speed)]
     for key, (label, flt) in filters.items():
-        if isinstance(flt, NotchDesign):
-            runs.append((key, label, flt.apply(speed)))
-        elif flt is not None:
+        if flt is not None:
             runs.append((key, label, flt.apply(speed, T)))
     ends = [len(cmd) * T for key, _, cmd in runs if key != "notch"]
     t_end = max(ends) + after_s

@@ -21,17 +21,16 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import lru_cache
 
 import numpy as np
 
 from stillhook.errors import DesignError
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.lp_grid import MAX_BASIS_ENTRIES, ProblemTooLarge, optimize_on_grid
 from stillhook.shaping.shaper import (
     Shaper,
-    check_below_half_rate,
     check_cycle,
     check_damping,
     check_frequency,
@@ -39,6 +38,7 @@ from stillhook.shaping.shaper import (
     insensitive_band_hz,
     worst_vibration,
 )
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
     "MAX_COVER_IMPULSES", "TwoModeShapers", "band_shaper", "closed_form_cover", "family_region", "multi_band_shaper",
@@ -47,8 +47,6 @@ __all__ = [
 
 #: Closed forms (positive amplitudes) tried when covering a band.
 _COVER_FAMILIES = ("zv", "zvd", "ei", "zvdd", "ei2", "ei3")
-#: Results of recent designs without a start shaper (same inputs give the same shaper).
-_MEMO: dict = {}
 
 
 def _check_bands(bands_hz) -> list[tuple[float, float]]:
@@ -77,10 +75,10 @@ def worst_over_bands(shaper: Shaper, bands_hz, damping_ratio: float = 0.0) -> fl
 
 
 # -- closed-form covers -----------------------------------------------------------------------
-@lru_cache(maxsize=256)
 def _unit_form(family: str, tolerance: float, zeta: float) -> Shaper:
-    """The closed form designed for 1 Hz (times scale as 1/f0 at a fixed damping ratio)."""
-    return CLOSED_FORMS[family](1.0, zeta, tolerance)
+    """The closed form designed for 1 Hz (times scale as 1/f0 at a fixed damping ratio), cached."""
+    return DESIGN_CACHE.get("unit_form", (family, tolerance, zeta),
+                            lambda: CLOSED_FORMS[family](1.0, zeta, tolerance))
 
 
 def scaled_form(family: str, freq_hz: float, tolerance: float, zeta: float) -> Shaper:
@@ -89,12 +87,14 @@ def scaled_form(family: str, freq_hz: float, tolerance: float, zeta: float) -> S
     return Shaper(u.times_s / freq_hz, u.amplitudes, f"{family}@{freq_hz:.6g}Hz")
 
 
-@lru_cache(maxsize=256)
 def family_region(family: str, tolerance: float, zeta: float) -> tuple[float, float, float]:
     """(r_lo, r_hi, duration at 1 Hz) of a closed form's insensitive region, normalized to f0 = 1 Hz."""
-    s = _unit_form(family, tolerance, zeta)
-    lo, hi = insensitive_band_hz(s, 1.0, tolerance, zeta)
-    return lo, hi, s.duration_s
+    def make() -> tuple[float, float, float]:
+        s = _unit_form(family, tolerance, zeta)
+        lo, hi = insensitive_band_hz(s, 1.0, tolerance, zeta)
+        return lo, hi, s.duration_s
+
+    return DESIGN_CACHE.get("family_region", (family, tolerance, zeta), make)
 
 
 def _cover_one(lo: float, hi: float, tol: float, zeta: float) -> tuple[float, list[tuple[str, float]]]:
@@ -181,8 +181,8 @@ def multi_band_shaper(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
     tol, zeta = check_tolerance(tolerance), check_damping(damping_ratio)
     cycle = _check_cycle(cycle_s, bands)
     key = (tuple(bands), tol, zeta, cycle, name)
-    if start is None and key in _MEMO:
-        return _MEMO[key]
+    if start is None and DESIGN_CACHE.lookup("band_design", key) is not None:
+        return DESIGN_CACHE.lookup("band_design", key)
     cover = closed_form_cover(bands, tol, zeta)
     candidates = [s for s in (start, cover) if s is not None]
     candidates = [s for s in candidates if (cycle is None or s.on_grid(cycle))
@@ -212,9 +212,7 @@ def multi_band_shaper(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
                           "allowed: a larger tolerance or narrower bands")
     best = min(pool, key=lambda s: (s.duration_s, s is not opt))
     if start is None:
-        if len(_MEMO) >= 64:
-            _MEMO.pop(next(iter(_MEMO)))
-        _MEMO[key] = best
+        DESIGN_CACHE.put("band_design", key, best)
     return best
 
 

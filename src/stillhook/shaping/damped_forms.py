@@ -25,12 +25,12 @@ from __future__ import annotations
 
 import math
 import warnings
-from functools import lru_cache
 
 import numpy as np
 from scipy.optimize import fsolve
 
 from stillhook.errors import DesignError
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.shaper import check_tolerance
 
 __all__ = ["damped_hump_shaper", "damped_umzv_times", "undamped_hump_amplitudes"]
@@ -65,13 +65,15 @@ def undamped_hump_amplitudes(n_humps: int, tolerance: float) -> np.ndarray:
 
 
 
-@lru_cache(maxsize=64)
 def _undamped_start(n_humps: int, tolerance: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Undamped amplitudes, times, zeros and humps (normalized), the continuation's start."""
-    A0 = undamped_hump_amplitudes(n_humps, tolerance)
-    t0 = math.pi * np.arange(A0.size)
-    zeros, humps = _undamped_features(A0, t0)
-    return A0, t0, zeros, humps
+    """Undamped amplitudes, times, zeros and humps (normalized), the continuation's start (cached)."""
+    def make() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        A0 = undamped_hump_amplitudes(n_humps, tolerance)
+        t0 = math.pi * np.arange(A0.size)
+        zeros, humps = _undamped_features(A0, t0)
+        return A0, t0, zeros, humps
+
+    return DESIGN_CACHE.get("undamped_start", (n_humps, tolerance), make)
 
 
 def _undamped_features(A: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -35,14 +35,15 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from stillhook.cautions import CAUTIONS
 from stillhook.errors import DesignError
-from stillhook.model.lookup import row_edges_m, schedule_rows
+from stillhook.model.lookup import row_edges_m, rule_words, schedule_rows
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "MIN_BAND_HALF_WIDTH", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
@@ -63,8 +64,6 @@ ROW_OVERLAP = 0.05
 #: Schedule rows skip trying a low-mode-only shaper when the high mode's share of the payload
 #: participation exceeds this multiple of the tolerance.
 _GATE_SHARE_PER_TOL = 2.0
-_CACHE: dict[str, object] = {}
-_CACHE_SIZE = 32
 
 
 @dataclass(frozen=True, eq=False)
@@ -144,7 +143,7 @@ class Schedule:
     def as_dict(self) -> dict:
         return {
             "lookup_rule": self.lookup_rule,
-            "lookup": "row = count of switch_lengths_m <= measured rope length (nearest row, longer on a tie)",
+            "lookup": f"row = count of switch_lengths_m <= measured rope length ({rule_words(self.lookup_rule)})",
             "reason": self.reason,
             "cycle_s": self.cycle_s,
             "tolerance": self.tolerance,
@@ -223,7 +222,6 @@ class Design:
         out["convolved_duration_s"] = None if self.convolved is None else self.convolved.duration_s
         out["schedule"] = None if self.schedule is None else self.schedule.as_dict()
         out["schedule_worst_residual_ratio"] = self.schedule_worst_ratio
-        out["cautions"] = list(CAUTIONS)
         return out
 
 
@@ -298,30 +296,18 @@ def _decide(env, method: str, bands, tol: float, tol_d: float, zeta: float, cycl
                f"payload's sway participation")
     if ratio[k] <= tol:
         return low, None, False, f"high mode not treated: {numbers}, within the {100 * tol:g} % tolerance"
-    if bands[1][1] > 0.5 / cycle_s:
-        raise DesignError(f"the high sway mode reaches {bands[1][1]:.4g} Hz, above half the drive rate "
-                          f"({0.5 / cycle_s:.4g} Hz for a {cycle_s:g} s cycle) and it needs treatment ({numbers}); "
-                          "allowed: a shorter drive cycle")
+    check_below_half_rate([bands[1][1]], cycle_s, what="the high sway mode's highest frequency",
+                          detail=f" and it needs treatment ({numbers})")
     both, conv = _both_bands(method, bands, tol_d, zeta, cycle_s, start, with_convolved, hint_s)
     return both, conv, True, f"high mode treated: {numbers}, above the {100 * tol:g} % tolerance"
 
 
 def _check_low_band(bands, cycle_s: float) -> None:
-    if bands[0][1] > 0.5 / cycle_s:
-        raise DesignError(f"the low sway mode reaches {bands[0][1]:.4g} Hz, above half the drive rate "
-                          f"({0.5 / cycle_s:.4g} Hz for a {cycle_s:g} s cycle); allowed: a shorter drive cycle")
+    check_below_half_rate([bands[0][1]], cycle_s, what="the low sway mode's highest frequency")
 
 
 def _key(project, what: str) -> str:
     return what + json.dumps([project.envelope.describe(), project.drive, project.design], sort_keys=True)
-
-
-def _cached(key: str, make):
-    if key not in _CACHE:
-        if len(_CACHE) >= _CACHE_SIZE:
-            _CACHE.pop(next(iter(_CACHE)))
-        _CACHE[key] = make()
-    return _CACHE[key]
 
 
 # -- schedule ----------------------------------------------------------------------------------
@@ -397,7 +383,7 @@ def design_for_project(project) -> Design:
         A mode that needs treatment lies above half the drive rate, or no shaper meets the
         tolerance over the bands.
     """
-    return _cached(_key(project, "design"), lambda: _design(project))
+    return DESIGN_CACHE.get("project_design", _key(project, "design"), lambda: _design(project))
 
 
 def schedule_for_project(project) -> Schedule:
@@ -405,7 +391,7 @@ def schedule_for_project(project) -> Schedule:
     d = design_for_project(project)
     if d.schedule is not None:
         return d.schedule
-    return _cached(_key(project, "schedule"), lambda: _schedule(project, d.shaper))
+    return DESIGN_CACHE.get("project_design", _key(project, "schedule"), lambda: _schedule(project, d.shaper))
 
 
 def _design(project) -> Design:

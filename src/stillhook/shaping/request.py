@@ -12,12 +12,12 @@ import math
 
 import numpy as np
 
-from stillhook.cautions import CAUTIONS
 from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import grid_effects, to_cycle_grid
-from stillhook.shaping.shaper import Shaper, check_below_half_rate, check_cycle, insensitive_band_hz, worst_vibration
+from stillhook.shaping.shaper import Shaper, check_cycle, insensitive_band_hz, worst_vibration
+from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = ["check_request", "shaper_request"]
 
@@ -123,5 +123,4 @@ def shaper_request(method: str, freqs_hz, bands_hz=(), damping_ratio: float = 0.
         effects["impulses"] = on_grid.as_dict(cycle)["impulses"]
         effects["design_frequencies_hz"] = [float(f) for f in np.atleast_1d(design_freqs)]
         out["drive_cycle"] = effects
-    out["cautions"] = list(CAUTIONS)
     return out

@@ -12,13 +12,10 @@ ratio used for every envelope check is therefore::
 so keeping every mode's V within the tolerance keeps the ratio within it, and a mode whose
 share |P_i| / sum |P| is small may be left untreated if the ratio still holds.
 
-The participations are computed vectorized over the grid from the mode shapes
-phi = [g - w^2 L2, w^2 L1] (angle ratio theta2/theta1 = w^2 L1 / (g - w^2 L2)):
-modal mass mu = phi^T M phi, step amplitude Gamma = -phi^T b / (mu w^2), payload offset
-(L1 phi_1 + L2 phi_2) Gamma. At payload mass 0 the limit of a vanishing payload is used (a light
-payload swinging on the rigging below the hook), as in :meth:`Envelope.frequency_map_hz`; this is
-the conservative reading (:meth:`stillhook.model.rig.Rig.modes` treats exactly 0 kg as a payload hanging
-in line, with no second mode).
+The participations come vectorized over the grid from the one batch decomposition,
+:func:`stillhook.model.modal_batch.batch_modes`. A payload mass of exactly 0 is a single pendulum
+with the (massless) payload in line with the rope, one mode, as :class:`stillhook.model.rig.Rig`
+treats it; its second mode has no share.
 
 Notes
 -----
@@ -32,7 +29,7 @@ from __future__ import annotations
 import numpy as np
 
 from stillhook.model.envelope import Envelope
-from stillhook.model.rig import mode_frequencies_rad_s
+from stillhook.model.modal_batch import batch_modes
 from stillhook.shaping.shaper import Shaper
 
 __all__ = ["mode_shares", "payload_participations", "residual_ratio"]
@@ -50,29 +47,14 @@ def payload_participations(envelope: Envelope, rope_lengths_m, payload_masses_kg
     Returns
     -------
     freqs_hz, participation : ndarray, shape (nL, nm, n_modes)
-        n_modes = 2 for a two-mode envelope (low first), 1 otherwise. A payload mass of 0 is taken
-        as the limit of a vanishing payload.
+        n_modes = 2 for a two-mode envelope (low first), 1 otherwise. At a payload mass of 0 the
+        second mode's participation is 0 (a single pendulum, payload in line).
     """
-    g = envelope.gravity_m_s2
     L1 = np.asarray(rope_lengths_m, dtype=float)[:, None]
     m2 = np.asarray(payload_masses_kg, dtype=float)[None, :]
-    L2 = envelope.rigging_length_m
-    if not envelope.has_two_modes:
-        w = np.sqrt(g / L1) * np.ones_like(m2)
-        P = -(L1 + (L2 if envelope.payload_mass_range_kg[1] == 0.0 else 0.0)) / g * np.ones_like(m2)
-        return (w / (2 * np.pi))[..., None], P[..., None]
-    m1 = envelope.hook_mass_kg
-    m2_safe = np.where(m2 > 0.0, m2, 1e-9 * m1)
-    w = mode_frequencies_rad_s(m1, m2_safe, L1, L2, g)  # (nL, nm, 2)
-    w2 = w * w
-    L1b, m2b = L1[..., None], m2_safe[..., None]
-    phi1, phi2 = g - w2 * L2, w2 * L1b
-    # mu = phi^T M phi with M = [[(m1 + m2) L1^2, m2 L1 L2], [m2 L1 L2, m2 L2^2]]
-    mu = (m1 + m2b) * L1b**2 * phi1**2 + 2 * m2b * L1b * L2 * phi1 * phi2 + m2b * L2**2 * phi2**2
-    phib = (m1 + m2b) * L1b * phi1 + m2b * L2 * phi2  # phi^T b
-    gamma = -phib / (mu * w2)
-    P = (L1b * phi1 + L2 * phi2) * gamma
-    return w / (2 * np.pi), P
+    modes = batch_modes(envelope.hook_mass_kg, m2, L1, envelope.rigging_length_m, envelope.gravity_m_s2)
+    n_modes = 2 if envelope.has_two_modes else 1
+    return modes.frequency_hz[..., :n_modes], modes.payload_participation_m_per_m_s2[..., :n_modes]
 
 
 def mode_shares(envelope: Envelope, rope_lengths_m, payload_masses_kg) -> tuple[np.ndarray, np.ndarray]:

@@ -35,7 +35,7 @@ from stillhook.checks import finite_number
 from stillhook.errors import DesignError
 
 __all__ = [
-    "Shaper", "TIME_MERGE_S", "check_below_half_rate", "check_cycle", "check_damping", "check_frequency",
+    "Shaper", "TIME_MERGE_S", "check_cycle", "check_damping", "check_frequency",
     "check_tolerance", "insensitive_band_hz", "insensitivity_width", "residual_vibration", "sensitivity_curve",
     "worst_vibration",
 ]
@@ -66,15 +66,6 @@ def check_tolerance(tolerance: float) -> float:
 def check_cycle(cycle_s: float) -> float:
     """The drive cycle (s) as a finite number > 0, else DesignError."""
     return finite_number("cycle_s", cycle_s, allowed="a finite number > 0", error=DesignError, lo=0.0, lo_ok=False)
-
-
-def check_below_half_rate(freqs_hz, cycle_s: float) -> None:
-    """DesignError naming the first frequency above half the drive rate 1 / (2 cycle_s)."""
-    nyquist = 0.5 / cycle_s
-    for f in freqs_hz:
-        if f > nyquist:
-            raise DesignError(f"frequency {f:g} Hz is above half the drive rate ({nyquist:g} Hz for a "
-                              f"{cycle_s:g} s cycle); allowed: frequencies <= {nyquist:g} Hz")
 
 
 def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:
@@ -114,6 +105,9 @@ def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 
 @dataclass(frozen=True, eq=False)
 class Shaper:
     """An input shaper: impulses at ``times_s`` with ``amplitudes``.
+
+    A command filter (:class:`stillhook.sim.command_filter.CommandFilter`): ``apply``,
+    ``added_duration_s``, ``mean_delay_s``, ``residual_vibration``.
 
     Parameters
     ----------
@@ -189,6 +183,16 @@ class Shaper:
     def duration_s(self) -> float:
         """Last impulse time (s)."""
         return float(self.times_s[-1])
+
+    @property
+    def added_duration_s(self) -> float:
+        """How much longer a shaped command runs (s): the last impulse time (command-filter interface)."""
+        return self.duration_s
+
+    @property
+    def mean_delay_s(self) -> float:
+        """Mean delay sum A_i t_i (s), the centroid of the impulses (command-filter interface)."""
+        return float(np.dot(self.amplitudes, self.times_s))
 
     @property
     def n_impulses(self) -> int:

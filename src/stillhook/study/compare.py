@@ -51,11 +51,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.notch.design import MIN_EDGE_RATIO, NotchDesign, notch_for_project
+from stillhook.notch.design import MIN_EDGE_RATIO, notch_for_project
 from stillhook.shaping import closed_forms as shapers
 from stillhook.shaping.band_design import band_shaper
 from stillhook.shaping.cycle_grid import to_cycle_grid
 from stillhook.shaping.envelope_design import design_for_project
+from stillhook.sim.command_filter import UNFILTERED, CommandFilter
 from stillhook.sim.dynamics import simulate, time_within_s
 from stillhook.sim.profiles import project_move
 
@@ -83,11 +84,11 @@ DEFINITIONS = {
 
 @dataclass(frozen=True)
 class Candidate:
-    """One row's filter before simulation: a shaper (on the cycle grid), a notch design, or None."""
+    """One row's command filter before simulation (a shaper on the cycle grid, a notch cascade, ...)."""
 
     method: str
     label: str
-    filter: object | None
+    filter: CommandFilter
     tuned_to: str
 
 
@@ -170,7 +171,7 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
     i, mode = _dominant_mode(env.nominal_rig)
     f = mode.frequency_hz
     where = f"mode {i + 1} at {f:.4g} Hz (nominal)"
-    out = [Candidate("unshaped", "unshaped", None, "-")]
+    out = [Candidate("unshaped", "unshaped", UNFILTERED, "-")]
     for name, make in (("zv", shapers.zv), ("zvd", shapers.zvd)):
         out.append(Candidate(name, name.upper(), to_cycle_grid(make(f, zeta), T, freqs_hz=[f], damping_ratio=zeta),
                              where))
@@ -198,12 +199,7 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
 def _command(candidate: Candidate, speed: np.ndarray, T: float) -> tuple[np.ndarray, float, float]:
     """(filtered speed, duration_s, centroid_delay_s) of one candidate."""
     flt = candidate.filter
-    if flt is None:
-        return speed, 0.0, 0.0
-    if isinstance(flt, NotchDesign):
-        y = flt.apply(speed)
-        return y, (len(y) - len(speed)) * T, flt.centroid_delay_s
-    return flt.apply(speed, T), flt.duration_s, float(np.dot(flt.amplitudes, flt.times_s))
+    return flt.apply(speed, T), flt.added_duration_s, flt.mean_delay_s
 
 
 def time_at_rest_s(result, target_m: float, threshold_m: float) -> float | None:

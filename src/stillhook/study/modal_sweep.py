@@ -1,6 +1,6 @@
 """Residual sway of many rigs at once: exact discretization of the linear model in modal coordinates.
 
-Each rig of the batch is decomposed into its sway modes (:mod:`stillhook.model.rig`). With
+Each rig of the batch is decomposed into its sway modes (:mod:`stillhook.model.modal_batch`). With
 theta = sum_i phi_i eta_i and modal damping, mode i obeys
 
     eta_i'' + 2 zeta w_i eta_i' + w_i^2 eta_i = -(phi_i^T b / phi_i^T M phi_i) a(t),
@@ -45,7 +45,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.model.rig import mode_frequencies_rad_s
+from stillhook.model.modal_batch import batch_modes
 from stillhook.sim.dynamics import SETTLE_WINDOW_S
 
 __all__ = [
@@ -75,7 +75,8 @@ class ModalBatch:
         The rigs' points in the envelope.
     omega_rad_s : ndarray (R, 2)
         Undamped mode frequencies, low first. A single-pendulum rig (no payload mass or no
-        rigging) has one mode; its second column repeats the first with zero gains.
+        rigging) has one mode; its second column repeats the first with zero gains. A payload of
+        0 kg hangs in line with the rope (:mod:`stillhook.model.modal_batch`).
     damping_ratio : float in [0, 1)
         Modal damping ratio of every mode.
     payload_gain, hook_gain : ndarray (R, 2)
@@ -104,29 +105,11 @@ class ModalBatch:
             raise ConfigError("rope lengths must be finite and > 0 (m)")
         if not (np.all(np.isfinite(m2)) and np.all(m2 >= 0)):
             raise ConfigError("payload masses must be finite and >= 0 (kg)")
-        m1, L2, g = envelope.hook_mass_kg, envelope.rigging_length_m, envelope.gravity_m_s2
-        R = L1.size
-        w = np.empty((R, 2))
-        p = np.zeros((R, 2))
-        q = np.zeros((R, 2))
-        two = (m2 > 0.0) & (L2 > 0.0)
-        # single pendulum: w^2 = g / L1, x1 = y; a massless payload hangs in line, x2 = (L1 + L2) / L1 x1
-        w_single = np.sqrt(g / L1)
-        w[:, 0] = w[:, 1] = w_single
-        q[:, 0] = 1.0
-        p[:, 0] = np.where(m2 == 0.0, (L1 + L2) / L1, 1.0)
-        if np.any(two):
-            Lt, mt = L1[two], m2[two]
-            wt = mode_frequencies_rad_s(m1, mt, Lt, L2, g)  # (n, 2)
-            w2 = wt * wt
-            # mode shape from the second row of (K - w^2 M) phi = 0: phi = [1, w^2 L1 / (g - w^2 L2)]
-            r = w2 * Lt[:, None] / (g - w2 * L2)
-            Lc = Lt[:, None]
-            n = (m1 + mt[:, None]) * Lc**2 + 2.0 * mt[:, None] * Lc * L2 * r + mt[:, None] * L2**2 * r**2
-            gb = (m1 + mt[:, None]) * Lc + mt[:, None] * L2 * r
-            w[two] = wt
-            p[two] = (Lc + L2 * r) * gb / n
-            q[two] = Lc * gb / n
+        modes = batch_modes(envelope.hook_mass_kg, m2, L1, envelope.rigging_length_m, envelope.gravity_m_s2)
+        # unit-oscillator gains from the step participations: a unit step leaves y_i = -1 / w_i^2
+        w = modes.omega_rad_s
+        p = -modes.payload_participation_m_per_m_s2 * (w * w)
+        q = -modes.hook_participation_m_per_m_s2 * (w * w)
         return cls(L1, m2, w, float(envelope.damping_ratio), p, q)
 
     @property

@@ -77,7 +77,7 @@ def project_designs(project, speed_m_s, *, keys=DESIGN_KEYS, design=None, notch=
         design = design_for_project(project)
     if "shaper" in keys:
         sh = design.shaper
-        out.append(SweepDesign("shaper", f"shaper {sh.name}".strip(), sh.duration_s, (sh.apply(v, T),)))
+        out.append(SweepDesign("shaper", f"shaper {sh.name}".strip(), sh.added_duration_s, (sh.apply(v, T),)))
     if "schedule" in keys:
         sched = design.schedule
         if sched is None:
@@ -87,14 +87,13 @@ def project_designs(project, speed_m_s, *, keys=DESIGN_KEYS, design=None, notch=
             cmds = tuple(s.apply(v, T) for s in sched.shapers)
             rows = np.asarray(sched.rope_lengths_m, dtype=float)
             out.append(SweepDesign("schedule", f"length schedule ({len(rows)} rows, {rule})",
-                                   max(s.duration_s for s in sched.shapers), cmds, rows, rule,
+                                   max(s.added_duration_s for s in sched.shapers), cmds, rows, rule,
                                    project.firmware.get("rope_length_lsb_m")))
     if "notch" in keys:
         if notch is None:
             notch = notch_for_project(project)
-        y = notch.apply(v)
         freqs = ", ".join(f"{f:.3g}" for f in notch.freqs_hz)
-        out.append(SweepDesign("notch", f"notch ({freqs} Hz)", (len(y) - len(v)) * T, (y,)))
+        out.append(SweepDesign("notch", f"notch ({freqs} Hz)", notch.added_duration_s, (notch.apply(v, T),)))
     return out, notes
 
 
