@@ -65,3 +65,13 @@ def test_unknown_sensor_kind_is_one_clear_error(tmp_path, capsys):
     assert main(["feedback", str(p)]) == 2
     err = capsys.readouterr().err
     assert "[sensor] kind" in err and "hook_angle_rad" in err
+
+
+def test_compare_controllers_json(project, capsys):
+    assert main(["compare", project, "--controller", "none", "--controller", "feedback", "--initial-sway-rad", "0.03",
+                 "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    c = out["controllers"]
+    assert set(c) == {"none", "feedback"}
+    assert c["feedback"]["residual_payload_sway_m"] < c["none"]["residual_payload_sway_m"]
+    assert out["scenario"]["initial_sway_rad"] == 0.03
