@@ -30,6 +30,7 @@ from typing import Any
 
 from stillhook.errors import ConfigError, InputFileError, StillhookError
 from stillhook.model.envelope import Envelope
+from stillhook.model.sensors import SENSOR_KINDS
 
 DEMO_PROJECT_NAME = "demo_project.toml"
 
@@ -125,8 +126,7 @@ SCHEMA: dict[str, dict[str, Key]] = {
 # sway sensor for the feedback controller: what it measures (the commissioning logs' names), its noise
 # standard deviation and resolution in that unit, and its delay in whole drive cycles
 SCHEMA["sensor"] = {
-    "kind": Key("choice", default="hook_angle_rad",
-                choices=("hook_angle_rad", "payload_angle_rad", "hook_offset_m", "payload_offset_m")),
+    "kind": Key("choice", default="hook_angle_rad", choices=SENSOR_KINDS),
     "noise_sd": Key("number", default=0.0, minimum=0.0, maximum=10.0),
     "resolution": Key("number", default=0.0, minimum=0.0, maximum=1.0),
     "delay_cycles": Key("int", default=0, minimum=0, maximum=50),

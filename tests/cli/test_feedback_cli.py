@@ -75,3 +75,11 @@ def test_compare_controllers_json(project, capsys):
     assert set(c) == {"none", "feedback"}
     assert c["feedback"]["residual_payload_sway_m"] < c["none"]["residual_payload_sway_m"]
     assert out["scenario"]["initial_sway_rad"] == 0.03
+
+
+def test_cli_controller_choices_are_the_studys():
+    # the CLI keeps its choices light (no study import at start-up); they must be the study's own list
+    from stillhook.cli._controllers import CONTROLLER_CHOICES
+    from stillhook.study.controllers import CONTROLLERS
+
+    assert CONTROLLER_CHOICES == CONTROLLERS

@@ -10,7 +10,7 @@ _EXPORTS = {
     "FeedbackController": "stillhook.feedback.controller",
     "check_envelope": "stillhook.feedback.robustness",
     "EnvelopeCheck": "stillhook.feedback.robustness",
-    "SENSOR_KINDS": "stillhook.feedback.plant",
+    "SENSOR_KINDS": "stillhook.model.sensors",
     "design_plant": "stillhook.feedback.plant",
     "FeedbackDesign": "stillhook.feedback.design",
     "FeedbackRow": "stillhook.feedback.design",

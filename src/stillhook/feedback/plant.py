@@ -31,12 +31,10 @@ import numpy as np
 from scipy.linalg import expm
 
 from stillhook.model.rig import Rig
+from stillhook.model.sensors import SENSOR_ROWS
 
-__all__ = ["SENSOR_KINDS", "SENSOR_ROWS", "DesignPlant", "design_plant", "sampled", "sensor_row"]
+__all__ = ["DesignPlant", "design_plant", "sampled", "sensor_row"]
 
-#: Sensor kinds and the row of the rig's output matrix each reads.
-SENSOR_ROWS = {"hook_offset_m": 0, "payload_offset_m": 1, "hook_angle_rad": 2, "payload_angle_rad": 3}
-SENSOR_KINDS = tuple(SENSOR_ROWS)
 
 
 def sampled(A: np.ndarray, B: np.ndarray, cycle_s: float) -> tuple[np.ndarray, np.ndarray]:

@@ -35,13 +35,12 @@ import numpy as np
 from stillhook.checks import finite_number
 from stillhook.errors import ConfigError
 from stillhook.model.rig import Rig
+from stillhook.model.sensors import SENSOR_KINDS
 from stillhook.sim.dynamics import SETTLE_WINDOW_S, SimResult, time_within_s
 
-__all__ = ["ClosedLoopResult", "PlantState", "REST_BAND_M", "SENSOR_KINDS", "Sensor", "cycle_step",
+__all__ = ["ClosedLoopResult", "PlantState", "REST_BAND_M", "Sensor", "cycle_step",
            "run_closed_loop", "sensor_reading"]
 
-#: Sensor kinds (the commissioning logs' names).
-SENSOR_KINDS = ("hook_angle_rad", "payload_angle_rad", "hook_offset_m", "payload_offset_m")
 #: At-rest band of the settle time: |trolley position + payload offset - target| <= this (m); our choice.
 REST_BAND_M = 0.01
 
