@@ -41,7 +41,7 @@ def main() -> None:
     print(f"envelope check, {len(check.points)} points: {w:.2f} s wall, {c:.2f} s CPU; worst damping "
           f"{check.worst.damping_ratio:.4g}")
     lsb = project.firmware["rope_length_lsb_m"]
-    tables = feedback_tables(design, project.envelope, project.sensor, lsb)
+    tables = feedback_tables(design, project.envelope, project.sensor, lsb, follow_reference=False)
     speed, hoist = project_move(project)
     T, tau = project.drive["cycle_s"], project.drive["speed_loop_time_constant_s"]
     rig = project.envelope.nominal_rig

@@ -33,6 +33,9 @@ shk_status_t shk_feedback_init(shk_feedback_t *fb, const shk_feedback_table_t *t
     }
     fb->dev[0] = 0;
     fb->dev[1] = 0;
+    for (i = 0u; i < SHK_FB_MAX_REF; ++i) {
+        fb->ref[i] = 0;
+    }
     fb->sensor_prev = 0;
     fb->seq_prev = 0u;
     fb->stale = 0u;
@@ -41,7 +44,8 @@ shk_status_t shk_feedback_init(shk_feedback_t *fb, const shk_feedback_table_t *t
     if (table->schedule == NULL || shk_schedule_check(table->schedule) != SHK_OK
         || table->n_rows != table->schedule->n_rows || table->n_obs == 0u || table->n_obs > SHK_FB_MAX_OBS
         || !shk_fb_frac_ok(table->frac_o) || !shk_fb_frac_ok(table->frac_u) || !shk_fb_frac_ok(table->frac_v)
-        || !shk_fb_frac_ok(table->frac_d) || table->obs_next == NULL || table->du_row == NULL
+        || !shk_fb_frac_ok(table->frac_d) || !shk_fb_frac_ok(table->frac_r) || table->n_ref == 0u
+        || table->n_ref > SHK_FB_MAX_REF || table->ref_next == NULL || table->obs_next == NULL || table->du_row == NULL
         || table->vhat_row == NULL || table->drive == NULL || table->speed_max <= 0 || table->accel_room < 0
         || table->sensor_max <= 0 || table->jump_max <= 0 || table->stale_cycles == 0u) {
         return SHK_ERR_TABLE;
@@ -78,7 +82,7 @@ shk_status_t shk_feedback_step(shk_feedback_t *fb, uint32_t length, int32_t sens
                                int32_t reference, int32_t *command)
 {
     const shk_feedback_table_t *t;
-    int32_t x[SHK_FB_MAX_OBS + 3];
+    int32_t x[SHK_FB_MAX_OBS + 3 + SHK_FB_MAX_REF];
     int32_t obs_new[SHK_FB_MAX_OBS];
     int32_t du;
     int32_t vhat;
@@ -108,7 +112,10 @@ shk_status_t shk_feedback_step(shk_feedback_t *fb, uint32_t length, int32_t sens
     x[n] = fb->dev[0];
     x[n + 1u] = fb->dev[1];
     x[n + 2u] = sensor;
-    du = shk_fb_dot(t->du_row + (size_t)row * (n + 3u), x, n + 3u, t->frac_u);
+    for (i = 0u; i < t->n_ref; ++i) {
+        x[n + 3u + i] = fb->ref[i];
+    }
+    du = shk_fb_dot(t->du_row + (size_t)row * (n + 3u + t->n_ref), x, n + 3u + t->n_ref, t->frac_u);
     x[n] = sensor;
     vhat = shk_fb_dot(t->vhat_row + (size_t)row * (n + 1u), x, n + 1u, t->frac_v);
     u = (int64_t)shk_sat32((int64_t)reference + (int64_t)du);
@@ -135,6 +142,18 @@ shk_status_t shk_feedback_step(shk_feedback_t *fb, uint32_t length, int32_t sens
     x[2] = shk_sat32(u - (int64_t)reference);
     fb->dev[0] = shk_fb_dot(t->drive, x, 3u, t->frac_d);
     fb->dev[1] = shk_fb_dot(t->drive + 3, x, 3u, t->frac_d);
+    /* reference model from [ref, reference] */
+    for (i = 0u; i < t->n_ref; ++i) {
+        x[i] = fb->ref[i];
+    }
+    x[t->n_ref] = reference;
+    for (i = 0u; i < t->n_ref; ++i) {
+        obs_new[i] = shk_fb_dot(t->ref_next + ((size_t)row * t->n_ref + i) * (t->n_ref + 1u), x, t->n_ref + 1u,
+                                t->frac_r);
+    }
+    for (i = 0u; i < t->n_ref; ++i) {
+        fb->ref[i] = obs_new[i];
+    }
     *command = (int32_t)u;
     return status;
 }

@@ -15,11 +15,16 @@
  *   Output: *command, the speed command for the drive, Q31 of FS_v, always within +-speed_max.
  *   Tables: each output is one dot product of int32_t coefficients in Q(frac) with the stored
  *   state and the cycle's inputs, 16 <= frac <= 30:
- *     du   = fin(du_row[row]   . [obs, dev, sensor],      frac_u)
+ *     du   = fin(du_row[row]   . [obs, dev, sensor, ref], frac_u)
  *     vhat = fin(vhat_row[row] . [obs, sensor],           frac_v)
  *     u    = min(max(sat32(reference + du), vhat - accel_room, -speed_max), vhat + accel_room, speed_max)
  *     obs  = fin(obs_next[row] . [obs, sensor, u],        frac_o)   (n_obs rows, from the OLD obs)
  *     dev  = fin(drive . [dev, sat32(u - reference)],     frac_d)   (2 rows)
+ *     ref  = fin(ref_next[row] . [ref, reference],        frac_r)   (n_ref rows, from the OLD ref)
+ *   ref is the model of the shaped move's own sway (rig states and trolley speed, driven by the
+ *   reference alone): the gain acts on the deviation of the estimated sway from it, so the feedback
+ *   damps what the shaper did not plan (a released load, a gust, a model error) and leaves the shaped
+ *   move alone. Tables emitted for use without a shaper hold zeros there (ref stays 0).
  *   fin(acc, F) = sat32(round(acc / 2^F)), ties toward +infinity, on the EXACT sum: each state is split
  *   into 16-bit halves (shk_split_hi/lo), so |partial sums| < 2^52 and shk_finish_split rounds once.
  *   Limits and anti-windup: u respects the speed limit and the acceleration limit of the drive's speed
@@ -42,9 +47,11 @@
 #include "shk_schedule.h"
 
 /* Version of the feedback block's contract; emitted feedback tables check it. */
-#define SHK_FEEDBACK_VERSION 1
+#define SHK_FEEDBACK_VERSION 2
 /* Largest observer (rig states + trolley speed + sensor delay line). */
 #define SHK_FB_MAX_OBS 16
+/* Largest reference model (rig states + trolley speed). */
+#define SHK_FB_MAX_REF 8
 
 #define SHK_FB_RANGE   0x10u /* sensor reading beyond sensor_max: feedback off */
 #define SHK_FB_STALE   0x20u /* no new sensor reading for stale_cycles cycles: feedback off */
@@ -59,8 +66,11 @@ typedef struct {
     uint32_t frac_u;
     uint32_t frac_v;
     uint32_t frac_d;
+    uint32_t n_ref;             /* reference-model states, 1 .. SHK_FB_MAX_REF */
+    uint32_t frac_r;            /* 16 .. 30 */
     const int32_t *obs_next;    /* [n_rows][n_obs][n_obs + 2] */
-    const int32_t *du_row;      /* [n_rows][n_obs + 3] */
+    const int32_t *du_row;      /* [n_rows][n_obs + 3 + n_ref] */
+    const int32_t *ref_next;    /* [n_rows][n_ref][n_ref + 1] */
     const int32_t *vhat_row;    /* [n_rows][n_obs + 1] */
     const int32_t *drive;       /* [2][3] */
     int32_t speed_max;          /* > 0, Q31 of FS_v */
@@ -75,6 +85,7 @@ typedef struct {
     const shk_feedback_table_t *table;
     int32_t obs[SHK_FB_MAX_OBS];
     int32_t dev[2];
+    int32_t ref[SHK_FB_MAX_REF];
     int32_t sensor_prev;
     uint32_t seq_prev;
     uint32_t stale;

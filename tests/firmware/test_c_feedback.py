@@ -76,7 +76,8 @@ class CFeedback:
         keep.append(sched)
         self.table = ffi.new("shk_feedback_table_t *", {
             "n_rows": t.n_rows, "n_obs": t.n_obs, "frac_o": t.frac_o, "frac_u": t.frac_u, "frac_v": t.frac_v,
-            "frac_d": t.frac_d, "obs_next": arr("int32_t", t.obs_next), "du_row": arr("int32_t", t.du_row),
+            "frac_d": t.frac_d, "n_ref": t.n_ref, "frac_r": t.frac_r, "ref_next": arr("int32_t", t.ref_next),
+            "obs_next": arr("int32_t", t.obs_next), "du_row": arr("int32_t", t.du_row),
             "vhat_row": arr("int32_t", t.vhat_row), "drive": arr("int32_t", t.drive), "speed_max": t.speed_max,
             "accel_room": t.accel_room, "sensor_max": t.sensor_max, "jump_max": t.jump_max,
             "stale_cycles": t.stale_cycles, "schedule": sched})
@@ -165,11 +166,13 @@ def test_feedback_block_clean_under_strict_warnings_and_sanitizers(fb, tmp_path)
     main = ['#include "shk_feedback.h"\n#include <stdio.h>\n',
             c_array("th", "uint32_t", t.thresholds), c_array("on", "int32_t", t.obs_next),
             c_array("du", "int32_t", t.du_row), c_array("vh", "int32_t", t.vhat_row),
-            c_array("dr", "int32_t", t.drive), c_array("L", "uint32_t", length), c_array("Y", "int32_t", y),
+            c_array("dr", "int32_t", t.drive), c_array("rn", "int32_t", t.ref_next),
+            c_array("L", "uint32_t", length), c_array("Y", "int32_t", y),
             c_array("R", "int32_t", r),
             f"static const shk_schedule_t sc = {{{t.n_rows}u, {t.length_min}u, {t.length_max}u, th}};\n",
             f"static const shk_feedback_table_t tb = {{{t.n_rows}u, {t.n_obs}u, {t.frac_o}u, {t.frac_u}u, "
-            f"{t.frac_v}u, {t.frac_d}u, on, du, vh, dr, {t.speed_max}, {t.accel_room}, {t.sensor_max}, "
+            f"{t.frac_v}u, {t.frac_d}u, {t.n_ref}u, {t.frac_r}u, on, du, rn, vh, dr, {t.speed_max}, {t.accel_room}, "
+            f"{t.sensor_max}, "
             f"{t.jump_max}, {t.stale_cycles}u, &sc}};\n",
             "int main(void) {\n shk_feedback_t f; int32_t u = 0; long long sum = 0; unsigned k;\n"
             " if (shk_feedback_init(&f, &tb) != SHK_OK) return 1;\n"
@@ -205,12 +208,15 @@ def integer_controller(t, rig_lsb_m=LSB_M):
     return step
 
 
-def test_integer_controller_in_the_loop_agrees_with_the_float_design(fb):
-    # bound (stated): payload path within 1 mm and residual sway within 2 % + 0.5 mm of the float controller
-    env, design, t = fb
+@pytest.mark.parametrize("follow", [False, True])
+def test_integer_controller_in_the_loop_agrees_with_the_float_design(fb, follow):
+    # bound (stated): payload path within 1 mm and residual sway within 2 % + 0.5 mm of the float controller,
+    # with the gain on the estimated sway (no shaper) and on its deviation from the reference model
+    env, design, _t = fb
+    t = feedback_tables(design, env, SENSOR, LSB_M, follow_reference=follow)
     rig = env.rig(3.4, 280.0)
     runs = {}
-    for name, ctrl in (("float", FeedbackController(design).step), ("int", integer_controller(t))):
+    for name, ctrl in (("float", FeedbackController(design, follow).step), ("int", integer_controller(t))):
         runs[name] = run_closed_loop(rig, trapezoid(2.0, 0.5, 0.3, 0.01), 0.01, 0.05, ctrl,
                                      sensor=Sensor("hook_angle_rad", 0.0005, 0.0, 1), hoist_m_s=np.full(300, -0.002),
                                      initial_angles_rad=(0.04, 0.04), settle_s=12.0)
@@ -234,10 +240,10 @@ def test_worst_damping_recomputed_from_the_integer_tables(fb):
             rig = env.rig(float(L), m)
             k = design.row_for(float(L))
             G = t.obs_next[k] / 2.0**t.frac_o * S_o[:, None] / np.concatenate([S_o, [t.fs_y, t.fs_v]])[None, :]
-            g_u = t.du_row[k] / 2.0**t.frac_u * t.fs_v / np.concatenate([S_o, S_d, [t.fs_y]])
+            g_u = t.du_row[k] / 2.0**t.frac_u * t.fs_v / np.concatenate([S_o, S_d, [t.fs_y], S_o[:t.n_ref]])
             Dr = t.drive / 2.0**t.frac_d * S_d[:, None] / np.array([t.fs_v, S_d[1], t.fs_v])[None, :]
             # controller: u = g_o o + g_d d + g_y y; o' = G_o o + G_y y + G_u u; d' = D d + D_b u
-            g_o, g_d, g_y = g_u[:n_o], g_u[n_o:n_o + 2], g_u[-1]
+            g_o, g_d, g_y = g_u[:n_o], g_u[n_o:n_o + 2], g_u[n_o + 2]  # (the reference model is at rest here)
             G_o, G_y, G_u = G[:, :n_o], G[:, n_o], G[:, n_o + 1]
             A_p, B_p, C_p = plant_system(design, rig)
             n_p = A_p.shape[0]

@@ -5,11 +5,12 @@ One call of :meth:`FeedbackModel.step` is one drive cycle::
     row, status = schedule lookup of the rope length (shk_schedule.h)
     fault checks (first call excepted): no new sample for stale_cycles cycles, |y| > sensor_max,
       a new sample that moved more than jump_max  ->  feedback off for good (until init), u = r
-    du   = fin(du_row[row]   . [o, d, y],        frac_u)
+    du   = fin(du_row[row]   . [o, d, y, x_r],   frac_u)
     v^   = fin(vhat_row[row] . [o, y],           frac_v)
     u    = min(max(sat32(r + du), v^ - room, -speed_max), v^ + room, speed_max)
     o    = fin(obs_next[row] . [o, y, u],        frac_o)      (each row of the matrix)
     d    = fin(drive . [d, sat32(u - r)],        frac_d)
+    x_r  = fin(ref_next[row] . [x_r, r],         frac_r)      (each row; zero tables: x_r stays 0)
 
 with fin(acc, F) = sat32(floor((acc + 2^(F-1)) / 2^F)) of the exact sum (the C splits each int32 state
 into 16-bit halves so no partial sum leaves int64, and finishes with shk_finish_split).
@@ -51,6 +52,7 @@ class FeedbackModel:
     def reset(self) -> None:
         self.o = np.zeros(self.t.n_obs, dtype=np.int64)
         self.d = np.zeros(2, dtype=np.int64)
+        self.x_r = np.zeros(self.t.n_ref, dtype=np.int64)
         self.y_prev, self.seq_prev, self.stale, self.fault, self.started = 0, 0, 0, 0, False
 
     def lookup(self, length: int) -> tuple[int, int]:
@@ -79,7 +81,7 @@ class FeedbackModel:
             self.y_prev, self.seq_prev, self.started = y, seq, True
         if self.fault:
             return r, status | self.fault
-        du = finish(t.du_row[row], np.concatenate([self.o, self.d, [y]]), t.frac_u)
+        du = finish(t.du_row[row], np.concatenate([self.o, self.d, [y], self.x_r]), t.frac_u)
         vhat = finish(t.vhat_row[row], np.concatenate([self.o, [y]]), t.frac_v)
         raw = _sat32(r + du)
         u = min(max(raw, vhat - t.accel_room, -t.speed_max), vhat + t.accel_room, t.speed_max)
@@ -90,4 +92,6 @@ class FeedbackModel:
         du_applied = _sat32(u - r)
         dx = np.concatenate([self.d, [du_applied]])
         self.d = np.array([finish(t.drive[i], dx, t.frac_d) for i in range(2)], dtype=np.int64)
+        rx = np.concatenate([self.x_r, [r]])
+        self.x_r = np.array([finish(t.ref_next[row, i], rx, t.frac_r) for i in range(t.n_ref)], dtype=np.int64)
         return u, status

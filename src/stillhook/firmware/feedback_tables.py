@@ -15,7 +15,8 @@ inside int32). Per row (controller of :mod:`stillhook.feedback.controller`, reor
 ONE dot product of the stored state and the cycle's inputs)::
 
     obs_next  (n_o x (n_o + 2)):  o'   = [A_o E | A_o M | B_o] [o; y; u]         E = I - M C_o
-    du_row    (n_o + 3):          du   = [-K_x S E | -K_d | -K_x S M] [o; d; y]
+    du_row    (n_o + 3 + n_r):    du   = [-K_x S E | -K_d | -K_x S M | K_x S_r] [o; d; y; x_r]
+    ref_next  (n_r x (n_r + 1)):  x_r' = [A_r | B_r] [x_r; r]     (follow_reference; n_r = rig states + speed)
     vhat_row  (n_o + 1):          v^_c = [E | M]_(row of v) [o; y]
     drive     (2 x 3):            d'   = [D | D_b] [d; u - r]                       (all rows)
 
@@ -72,6 +73,10 @@ class FeedbackTables:
     du_row: np.ndarray        # (n_rows, n_obs + 3)
     vhat_row: np.ndarray      # (n_rows, n_obs + 1)
     drive: np.ndarray         # (2, 3)
+    ref_next: np.ndarray      # (n_rows, n_ref, n_ref + 1)
+    n_ref: int
+    frac_r: int
+    follow_reference: bool
     speed_max: int
     accel_room: int
     sensor_max: int
@@ -99,8 +104,13 @@ def _quantize(c: np.ndarray, F: int) -> np.ndarray:
     return np.floor(c * 2.0**F + 0.5).astype(np.int64)
 
 
-def feedback_tables(design: FeedbackDesign, envelope, sensor: dict, rope_length_lsb_m: float) -> FeedbackTables:
-    """Scale and round a :class:`FeedbackDesign` for the runtime (module docstring)."""
+def feedback_tables(design: FeedbackDesign, envelope, sensor: dict, rope_length_lsb_m: float, *,
+                    follow_reference: bool = True) -> FeedbackTables:
+    """Scale and round a :class:`FeedbackDesign` for the runtime (module docstring).
+
+    ``follow_reference``: the runtime sits behind a shaper and damps the deviation from the shaped move's
+    own sway (:class:`stillhook.feedback.controller.FeedbackController`); the emitted runtime does.
+    """
     row0 = design.rows[0]
     n, n_o = row0.plant.n_rig, row0.A_o.shape[0]
     if n_o > MAX_OBSERVER_STATES:
@@ -118,20 +128,24 @@ def feedback_tables(design: FeedbackDesign, envelope, sensor: dict, rope_length_
     nq = n // 2
     S_o = np.array([fs_a] * nq + [fs_a * w_max] * nq + [fs_v] + [fs_y] * (n_o - n - 1))
     S_d = np.array([fs_v, POSITION_FULL_SCALE_M])
-    obs, du, vh = [], [], []
+    n_r = n + 1
+    obs, du, vh, ref = [], [], [], []
     for row in design.rows:
         E = np.eye(n_o) - row.M @ row.C_o
         G = np.hstack([row.A_o @ E, row.A_o @ row.M, row.B_o])
         obs.append(G * np.concatenate([S_o, [fs_y, fs_v]])[None, :] / S_o[:, None])
         K_x, K_d = row.K[0, :n], row.K[0, n:]
         KSE = K_x @ E[:n]
-        g_u = np.concatenate([-KSE, -K_d, [-(K_x @ row.M[:n, 0])]])
-        du.append(g_u * np.concatenate([S_o, S_d, [fs_y]]) / fs_v)
+        g_u = np.concatenate([-KSE, -K_d, [-(K_x @ row.M[:n, 0])], K_x, [0.0]])
+        du.append(g_u * np.concatenate([S_o, S_d, [fs_y], S_o[:n_r]]) / fs_v)
+        R = np.hstack([row.A_o[:n_r, :n_r], row.B_o[:n_r]]) if follow_reference else np.zeros((n_r, n_r + 1))
+        ref.append(R * np.concatenate([S_o[:n_r], [fs_v]])[None, :] / S_o[:n_r, None])
         vh.append(np.concatenate([E[n], row.M[n]]) * np.concatenate([S_o, [fs_y]]) / S_o[n])
-    obs, du, vh = np.array(obs), np.array(du), np.array(vh)
+    obs, du, vh, ref = np.array(obs), np.array(du), np.array(vh), np.array(ref)
     drive = np.hstack([design.D_drive, design.Db_drive]) * np.array([fs_v, POSITION_FULL_SCALE_M, fs_v])[None, :]
     drive = drive / S_d[:, None]
-    F = {k: _fraction(v, k) for k, v in (("obs_next", obs), ("du_row", du), ("vhat_row", vh), ("drive", drive))}
+    F = {k: _fraction(v, k) for k, v in (("obs_next", obs), ("du_row", du), ("vhat_row", vh), ("drive", drive),
+                                          ("ref_next", ref))}
     jump = sensor["max_jump"] or (4.0 * max_abs * w_max * design.cycle_s + 6.0 * sensor["noise_sd"]
                                   + 2.0 * sensor["resolution"])
     lsb = float(rope_length_lsb_m)
@@ -139,7 +153,7 @@ def feedback_tables(design: FeedbackDesign, envelope, sensor: dict, rope_length_
     return FeedbackTables(
         len(design.rows), n_o, F["obs_next"], F["du_row"], F["vhat_row"], F["drive"],
         _quantize(obs, F["obs_next"]), _quantize(du, F["du_row"]), _quantize(vh, F["vhat_row"]),
-        _quantize(drive, F["drive"]),
+        _quantize(drive, F["drive"]), _quantize(ref, F["ref_next"]), n_r, F["ref_next"], bool(follow_reference),
         int(to_q31(design.max_speed_m_s, fs_v)), int(to_q31(design.max_accel_m_s2 * design.tau_s, fs_v)),
         int(to_q31(max_abs, fs_y)), int(to_q31(min(jump, max_abs), fs_y)), int(sensor["stale_cycles"]),
         th, int(rope_length_counts(lo_L, lsb)), int(rope_length_counts(hi_L, lsb)), lsb, fs_y, fs_v,

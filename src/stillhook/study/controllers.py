@@ -5,7 +5,8 @@ with the drive's speed loop (``[drive] speed_loop_time_constant_s``) and the ``[
 gives it (noise, resolution, delay). The operator's command is the project's reference move; ``shaper``
 filters it with the project's envelope shaper (:func:`stillhook.shaping.envelope_design.design_for_project`);
 ``feedback`` adds the scheduled observer + state feedback (:mod:`stillhook.feedback`), which sees only the
-sensor, the rope length and its own command.
+sensor, the rope length and its own command; behind a shaper it damps the deviation from the shaped
+move's own sway (:class:`stillhook.feedback.controller.FeedbackController` ``follow_reference``).
 
 Scenarios: the load released with sway (``initial_sway_rad``, both angles), a horizontal force on the
 payload (``gust_n`` for ``gust_s`` seconds from the end of the operator's command), hoisting during the
@@ -69,7 +70,7 @@ def run_controllers(project, controllers=CONTROLLERS, scenario: Scenario = Scena
         step = None
         if "feedback" in name:
             feedback = feedback_for_project(project) if feedback is None else feedback
-            step = FeedbackController(feedback).step
+            step = FeedbackController(feedback, follow_reference="shaper" in name).step
         out[name] = run_closed_loop(rig, reference, T, tau, step, sensor=sensor, hoist_m_s=hoist,
                                     initial_angles_rad=(scenario.initial_sway_rad, scenario.initial_sway_rad),
                                     gust_n=scenario.gust_n, gust_s=scenario.gust_s)
