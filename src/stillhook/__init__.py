@@ -2,7 +2,7 @@
 
 The package is grouped by the stage of the job, in data-flow order (see DEVELOPERS.md)::
 
-    project  ->  model  ->  sim  ->  shaping / notch  ->  firmware  ->  study  ->  report  ->  cli
+    project  ->  model  ->  sim  ->  shaping / notch  ->  firmware / study / commission  ->  report  ->  cli
 
 This top level offers the names a user scripts with, loaded lazily on first use so that
 ``import stillhook`` stays cheap (no scipy, matplotlib or python-control until needed).
@@ -46,6 +46,9 @@ _API = {
     "write_emit": "stillhook.firmware.plan",
     # study
     "compare_project": "stillhook.study.compare", "sweep_project": "stillhook.study.sweep",
+    # commissioning
+    "read_log": "stillhook.commission.logs", "identify_log": "stillhook.commission.identify",
+    "calibrate": "stillhook.commission.calibrate", "calibrate_logs": "stillhook.commission.session",
     # report
     "build_study": "stillhook.report.study", "write_report": "stillhook.report.folder",
     "run_demo": "stillhook.report.demo",

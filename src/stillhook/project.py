@@ -39,7 +39,8 @@ DEMO_PROJECT_NAME = "demo_project.toml"
 class Key:
     """One key of the schema.
 
-    kind: "number", "range" (number or [min, max]), "int", "bool", "choice", "identifier".
+    kind: "number", "range" (number or [min, max]), "numbers" (a list of numbers), "int", "bool", "choice",
+    "identifier".
     """
 
     kind: str
@@ -63,7 +64,7 @@ class Key:
             parts.append((">= " if self.min_inclusive else "> ") + f"{self.minimum:g}")
         if self.maximum is not None:
             parts.append(("<= " if self.max_inclusive else "< ") + f"{self.maximum:g}")
-        what = {"number": "a number", "int": "a whole number",
+        what = {"number": "a number", "int": "a whole number", "numbers": f"a list of at most {MAX_LIST} numbers each",
                 "range": "a number or [min, max] with min <= max"}[self.kind]
         return what + (" " + " and ".join(parts) if parts else "")
 
@@ -79,6 +80,8 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "gravity_m_s2": Key("number", default=9.80665, minimum=0.0, min_inclusive=False),
         "nominal_rope_length_m": Key("number", default=None, minimum=0.0, min_inclusive=False),
         "nominal_payload_mass_kg": Key("number", default=None, minimum=0.0),
+        # pendulum length = encoder rope length + rope_offset_m (sheaves, hook block geometry); see Envelope
+        "rope_offset_m": Key("number", default=0.0, minimum=-100.0, maximum=100.0),
     },
     "drive": {
         "cycle_s": Key("number", required=True, minimum=1e-5, maximum=0.1),
@@ -122,6 +125,23 @@ SCHEMA: dict[str, dict[str, Key]] = {
         # when Q15 rounding would move a notch past that limit, emit everything in Q31 instead of refusing
         "escalate_to_q31": Key("bool", default=True),
     },
+    # written by `stillhook calibrate`: the values before calibration, the fit's standard deviations and
+    # the identified frequencies it fitted (one entry per identified mode); the report's commissioning section
+    "calibration": {
+        "nominal_hook_mass_kg": Key("number", default=None, minimum=0.0, min_inclusive=False),
+        "nominal_rigging_length_m": Key("number", default=None, minimum=0.0),
+        "nominal_rope_offset_m": Key("number", default=None, minimum=-100.0, maximum=100.0),
+        "nominal_damping_ratio": Key("number", default=None, minimum=0.0, maximum=1.0, max_inclusive=False),
+        "hook_mass_sd_kg": Key("number", default=None, minimum=0.0),
+        "rigging_length_sd_m": Key("number", default=None, minimum=0.0),
+        "rope_offset_sd_m": Key("number", default=None, minimum=0.0),
+        "damping_ratio_sd": Key("number", default=None, minimum=0.0),
+        "rope_length_m": Key("numbers", default=(), minimum=0.0, min_inclusive=False),
+        "payload_mass_kg": Key("numbers", default=(), minimum=0.0),
+        "mode": Key("numbers", default=(), minimum=1.0, maximum=2.0),
+        "measured_hz": Key("numbers", default=(), minimum=0.0, min_inclusive=False),
+        "measured_sd_hz": Key("numbers", default=(), minimum=0.0),
+    },
 }
 # sway sensor for the feedback controller: what it measures (the commissioning logs' names), its noise
 # standard deviation and resolution in that unit, and its delay in whole drive cycles
@@ -150,6 +170,8 @@ SCHEMA["feedback"] = {
     "design_payload_mass_kg": Key("number", default=None, minimum=0.0),
 }
 REQUIRED_SECTIONS = ("rig", "drive")
+#: Longest list a "numbers" key accepts.
+MAX_LIST = 4096
 
 
 @dataclass(frozen=True)
@@ -171,6 +193,8 @@ class Project:
     sensor, feedback : dict
         Every key of ``[sensor]`` and ``[feedback]``, defaults filled in (the feedback controller is
         used when ``"feedback" in given_sections``).
+    calibration : dict
+        ``[calibration]`` with defaults filled in (written by ``stillhook calibrate``; empty lists when absent).
     """
 
     envelope: Envelope
@@ -184,6 +208,7 @@ class Project:
     given_sections: tuple[str, ...] = ()
     sensor: dict = field(default_factory=dict)
     feedback: dict = field(default_factory=dict)
+    calibration: dict = field(default_factory=dict)
 
 
 def _where(section: str, key: str) -> str:
@@ -223,6 +248,10 @@ def _value(section: str, key: str, spec: Key, value: Any) -> Any:
             return (lo, hi)
         v = _number(section, key, spec, value)
         return (v, v)
+    if spec.kind == "numbers":
+        if not isinstance(value, list) or len(value) > MAX_LIST:
+            raise ConfigError(f"{where} = {value!r} is not a list of numbers; allowed: {spec.allowed()}")
+        return tuple(_number(section, key, spec, v) for v in value)
     if spec.kind == "bool":
         if not isinstance(value, bool):
             raise ConfigError(f"{where} = {value!r} is not true/false; allowed: {spec.allowed()}")
@@ -285,6 +314,7 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
             gravity_m_s2=rig["gravity_m_s2"],
             nominal_rope_length_m=rig["nominal_rope_length_m"],
             nominal_payload_mass_kg=rig["nominal_payload_mass_kg"],
+            rope_offset_m=rig["rope_offset_m"],
         )
     except StillhookError as exc:
         raise ConfigError(f"[rig] {exc}") from None
@@ -294,8 +324,13 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
         if not lo <= hoist_to <= hi:
             raise ConfigError(f"[move] hoist_to_m = {hoist_to:g} is outside the rope range; "
                               f"allowed: a value in [{lo:g}, {hi:g}]")
+    cal = s["calibration"]
+    lists = ("rope_length_m", "payload_mass_kg", "mode", "measured_hz", "measured_sd_hz")
+    if len({len(cal[k]) for k in lists}) > 1:
+        raise ConfigError("[calibration] " + ", ".join(f"{k} ({len(cal[k])})" for k in lists)
+                          + " have different lengths; allowed: one entry each per identified mode")
     return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name,
-                   given_sections=tuple(section for section in SCHEMA if section in data),
+                   given_sections=tuple(section for section in SCHEMA if section in data), calibration=cal,
                    sensor=s["sensor"], feedback=s["feedback"])
 
 
@@ -332,6 +367,11 @@ def _parse(raw: bytes, label: str, name: str) -> Project:
         return project_from_dict(data, digest=hashlib.sha256(raw).hexdigest(), name=name)
     except ConfigError as exc:
         raise ConfigError(f"{label}: {exc}") from None
+
+
+def project_from_bytes(raw: bytes, file_name: str) -> Project:
+    """Parse and validate a project file's bytes; ``file_name`` labels errors and gives the project name."""
+    return _parse(raw, file_name, Path(file_name).stem)
 
 
 def demo_project_text() -> str:

@@ -25,7 +25,7 @@ STAGES = {
     "stillhook.lazy": 1, "stillhook.outputs": 1, "stillhook.fixed_point": 1,
     "stillhook.model": 2, "stillhook.project": 3, "stillhook.sim": 4,
     "stillhook.shaping": 5, "stillhook.notch": 5, "stillhook.feedback": 5,
-    "stillhook.firmware": 6, "stillhook.study": 6, "stillhook.report": 7, "stillhook.cli": 8,
+    "stillhook.firmware": 6, "stillhook.study": 6, "stillhook.commission": 6, "stillhook.report": 7, "stillhook.cli": 8,
     "stillhook.__main__": 9, "stillhook": 9,
 }
 #: Modules that later stages use but that may not import the rest of their own stage package.

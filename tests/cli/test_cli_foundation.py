@@ -37,7 +37,7 @@ def test_simulate_writes_csv_and_plot(tmp_path, capsys, minimal_project_file):
     metrics = json.loads(capsys.readouterr().out)["metrics"]
     assert metrics["residual_payload_sway_m"] > 0
     header = (out / "sim.csv").read_text().splitlines()[0]
-    assert header.startswith("t_s,trolley_position_m")
+    assert header.startswith("time_s,trolley_position_m")  # the sway-log columns identify reads
     assert (out / "sim.png").read_bytes()[:4] == b"\x89PNG"
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import json
 import shutil
+import tomllib
 from html.parser import HTMLParser
 from pathlib import Path
 
@@ -12,7 +13,6 @@ import pytest
 
 from stillhook.cautions import CAUTIONS
 from stillhook.cli import main
-from stillhook.project import demo_project_text
 
 
 class _Collect(HTMLParser):
@@ -84,8 +84,9 @@ def test_report_html_is_self_contained_and_complete(demo_out):
         assert heading in text
     for c in CAUTIONS:
         assert c in text
-    # provenance digest: SHA-256 of the project file's bytes (FIPS 180-4, via hashlib)
-    digest = hashlib.sha256(demo_project_text().encode("utf-8")).hexdigest()
+    # provenance digest: SHA-256 of the project file's bytes (FIPS 180-4, via hashlib); the demo designs from
+    # the project calibrated against its commissioning logs, written beside the report
+    digest = hashlib.sha256((out / "commissioning/demo_project_calibrated.toml").read_bytes()).hexdigest()
     assert digest in text
     manifest = json.loads((out / "firmware/manifest.json").read_text())
     assert manifest["input_digest_sha256"] == digest
@@ -137,3 +138,25 @@ def test_report_cli_refuses_a_missing_project(tmp_path, capsys):
     assert "not found" in capsys.readouterr().err and not out.exists()
     assert main(["report", "demo", "--out", str(out), "--grid", "2", "0"]) == 2
     assert not Path(out).exists()
+
+
+def test_demo_commissioning_shows_the_calibrated_design_holds_where_the_nominal_does_not(demo_out):
+    out, status, text = demo_out
+    data = json.loads((out / "report.json").read_text())
+    c = data["commissioning"]
+    tol = c["tolerance_pct"]
+    on_true = c["residuals"]["true crane (invented demo)"]
+    assert on_true["nominal design"]["worst_pct"] > tol >= on_true["calibrated design"]["worst_pct"]
+    assert on_true["calibrated design"]["share_within_tolerance_pct"] == 100.0
+    for name in ("demo_project_calibrated.toml", "calibration.json", "logs/commissioning_rope_5m.csv"):
+        assert (out / "commissioning" / name).is_file()
+    html = (out / "report.html").read_text()
+    assert "Commissioning: the rig calibrated against sway logs" in html and "re-verify on the crane" in html
+    assert "0 commission 3 logs identified" in text
+
+
+def test_demo_firmware_states_the_rope_offset_it_was_designed_with(demo_out):
+    out, _, _ = demo_out
+    cal = tomllib.loads((out / "commissioning/demo_project_calibrated.toml").read_text())
+    header = (out / "firmware/sway_tables.h").read_text()
+    assert f"encoder rope + {cal['rig']['rope_offset_m']:g} m" in header

@@ -5,8 +5,8 @@ from __future__ import annotations
 import argparse
 import sys
 
-HELP = ("run the whole job on the built-in demo project: modes, design, comparison, envelope sweep, "
-        "firmware (C + self-test), report")
+HELP = ("run the whole job on the built-in demo project: commissioning logs identified and calibrated, modes, "
+        "design, comparison, envelope sweep, firmware (C + self-test), report")
 
 _DEFAULT_OUT = "stillhook-demo"
 
@@ -28,9 +28,11 @@ def _summary(result, out: str) -> list[str]:
     env = p.envelope
     rig = env.nominal_rig
     lines = [f"stillhook demo: project {p.name} (an invented crane), drive cycle {p.drive['cycle_s']:g} s"]
+    lines += _commissioning_lines(result, out)
     modes = ", ".join(f"{m.frequency_hz:.3g} Hz" for m in rig.modes())
     bands = ", ".join(f"{lo:.3g}-{hi:.3g} Hz" for lo, hi in env.mode_bands_hz())
-    lines.append(f"1 modes      nominal rig ({rig.rope_length_m:g} m rope, {rig.payload_mass_kg:g} kg): {modes}; "
+    lines.append(f"1 modes      nominal rig ({env.nominal_rope_length_m:g} m rope, {rig.payload_mass_kg:g} kg): "
+                 f"{modes}; "
                  f"bands over the envelope: {bands}")
     d = st.design
     sched = f", length schedule of {len(d.schedule.shapers)} rows" if d.schedule is not None else ""
@@ -57,7 +59,28 @@ def _summary(result, out: str) -> list[str]:
                  f"{out}/report.json)")
     lines.append(f"done in {result.timings_s['total']:.1f} s")
     lines.append("Cautions:")
+    if result.commissioning is not None:
+        from stillhook.commission.project_file import CALIBRATION_CAUTION
+
+        lines.append(f"  - {CALIBRATION_CAUTION}")
     lines.extend(f"  - {c}" for c in CAUTIONS)
+    return lines
+
+
+def _commissioning_lines(result, out: str) -> list[str]:
+    demo, c = result.commissioning, result.study.commissioning
+    if demo is None or c is None:
+        return []
+    cal = demo.calibration
+    fitted = ", ".join(f"{k} {cal.nominal[k]:.4g} -> {cal.values[k]:.4g} +- {cal.sds[k]:.2g}"
+                       for k in cal.values if cal.sds[k] is not None)
+    lines = [f"0 commission {len(demo.results)} logs identified ({len(cal.observations)} mode frequencies); "
+             f"calibrated: {fitted}"]
+    for model, by_design in c["residuals"].items():
+        cells = [f"{name} worst {r['worst_pct']:.3g} % ({r['share_within_tolerance_pct']:.3g} % of rigs within "
+                 f"{c['tolerance_pct']:g} %)" for name, r in by_design.items()]
+        lines.append(f"             on the {model}: " + "; ".join(cells))
+    lines.append(f"             everything below is made from {out}/commissioning/{demo.project.name}.toml")
     return lines
 
 

@@ -65,6 +65,9 @@ def run(args: argparse.Namespace) -> int:
     where = "nominal point" if bands is not None else "rig"
     print(f"Sway modes at the {where}: hook {rig.hook_mass_kg:g} kg, payload {rig.payload_mass_kg:g} kg, "
           f"rope {rig.rope_length_m:g} m, rigging {rig.rigging_length_m:g} m")
+    if bands is not None and env.rope_offset_m != 0.0:
+        print(f"(rope here is the pendulum length: encoder rope {env.nominal_rope_length_m:g} m + [rig] rope_offset_m "
+              f"{env.rope_offset_m:g} m)")
     rows = [[i + 1, m.frequency_hz, m.period_s, m.omega_rad_s, m.damping_ratio, m.payload_to_hook_ratio,
              m.hook_participation_m_per_m_s2, m.payload_participation_m_per_m_s2] for i, m in enumerate(modes)]
     print(format_table(["mode", "freq Hz", "period s", "omega rad/s", "damping", "x2/x1",

@@ -62,7 +62,8 @@ def run(args: argparse.Namespace) -> int:
     if args.out is not None:
         from stillhook.outputs import write_files
 
-        write_files(args.out, {"sim.csv": sim_csv(result), "sim.png": sim_plot_png(result, rig)})
+        csv = sim_csv(result, payload_mass_kg=rig.payload_mass_kg, rope_offset_m=project.envelope.rope_offset_m)
+        write_files(args.out, {"sim.csv": csv, "sim.png": sim_plot_png(result, rig)})
     if args.json:
         print_json({"rig": {"rope_length_m": rig.rope_length_m, "payload_mass_kg": rig.payload_mass_kg},
                     "metrics": metrics})

@@ -179,8 +179,13 @@ def regulator_weights(plant: DesignPlant) -> tuple[np.ndarray, np.ndarray]:
     return Q_sway, Q_pos
 
 
-def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: float, target: float) -> FeedbackRow:
-    """LQR and Kalman gains of one row, both tuned to ``target`` (module docstring)."""
+def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: float, target: float,
+               rope_length_m: float | None = None) -> FeedbackRow:
+    """LQR and Kalman gains of one row, both tuned to ``target`` (module docstring).
+
+    ``rope_length_m`` is the row's rope length as the hoist encoder reads it (default: the plant rig's
+    pendulum length, the same when the envelope has no rope offset).
+    """
     T = plant.cycle_s
     Q_sway, Q_pos = regulator_weights(plant)
     R = np.eye(1)
@@ -199,7 +204,8 @@ def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: floa
 
     lam, (L, P), zeta_o, _ = _tune(observer, target, T)
     M = P @ C_o.T @ np.linalg.inv(C_o @ P @ C_o.T + RN)
-    return FeedbackRow(plant.rig.rope_length_m, plant, K, A_o, B_o, C_o, M, L, 10.0**q_s, 10.0**lam, zeta_r, zeta_o)
+    L_row = plant.rig.rope_length_m if rope_length_m is None else float(rope_length_m)
+    return FeedbackRow(L_row, plant, K, A_o, B_o, C_o, M, L, 10.0**q_s, 10.0**lam, zeta_r, zeta_o)
 
 
 def row_rope_lengths_m(rope_length_range_m: tuple[float, float], rows: int) -> np.ndarray:
@@ -272,7 +278,7 @@ def design_feedback(envelope, *, cycle_s: float, tau_s: float, max_speed_m_s: fl
     out = []
     for L in row_rope_lengths_m(envelope.rope_length_range_m, rows):
         plant = design_plant(envelope.rig(float(L), design_payload_mass_kg), cycle_s, tau_s, sensor["kind"])
-        out.append(design_row(plant, sensor["delay_cycles"], variance, target_damping_ratio))
+        out.append(design_row(plant, sensor["delay_cycles"], variance, target_damping_ratio, rope_length_m=L))
     n = out[0].plant.n_rig
     P = out[0].plant
     return FeedbackDesign(out, "nearest", sensor["kind"], int(sensor["delay_cycles"]), variance, float(cycle_s),

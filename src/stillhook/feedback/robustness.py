@@ -151,16 +151,21 @@ def envelope_grid(design: FeedbackDesign, envelope, n_rope: int = 9, n_payload: 
     return L, np.unique(np.append(m, design.design_payload_mass_kg))
 
 
-def check_point(design: FeedbackDesign, rig) -> GridPoint:
-    """Stability, damping and margins of the scheduled loop on one true rig."""
-    k = design.row_for(rig.rope_length_m)
+def check_point(design: FeedbackDesign, rig, rope_length_m: float | None = None) -> GridPoint:
+    """Stability, damping and margins of the scheduled loop on one true rig.
+
+    ``rope_length_m``: the encoder's rope length that picks the row (default the rig's pendulum length,
+    the same without a rope offset).
+    """
+    L = rig.rope_length_m if rope_length_m is None else float(rope_length_m)
+    k = design.row_for(L)
     row = design.rows[k]
     plant, ctrl = plant_system(design, rig), controller_system(design, row)
     poles = np.linalg.eigvals(closed_loop_matrix(plant, ctrl))
     radius = float(np.max(np.abs(poles)))
     w = _frequency_grid([mode.omega_rad_s for mode in rig.modes()], design.cycle_s)
     mg = margins(loop_frequency_response(plant, ctrl, design.cycle_s, w), w, design.cycle_s)
-    return GridPoint(rig.rope_length_m, rig.payload_mass_kg, k, radius < 1.0, radius,
+    return GridPoint(L, rig.payload_mass_kg, k, radius < 1.0, radius,
                      min_damping_ratio(poles, design.cycle_s), **mg)
 
 
@@ -209,5 +214,5 @@ def check_envelope(design: FeedbackDesign, envelope, min_damping: float, n_rope:
                    n_payload: int = 7) -> EnvelopeCheck:
     """Check every grid point (:func:`envelope_grid`) with :func:`check_point`."""
     L, m = envelope_grid(design, envelope, n_rope, n_payload)
-    pts = [check_point(design, envelope.rig(float(Li), float(mj))) for Li in L for mj in m]
+    pts = [check_point(design, envelope.rig(float(Li), float(mj)), float(Li)) for Li in L for mj in m]
     return EnvelopeCheck(pts, float(min_damping))

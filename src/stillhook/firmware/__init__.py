@@ -1,5 +1,5 @@
 """Firmware: the C runtime, Q-format arithmetic, integer reference models, the emit plan, C renderers,
-self-test vectors.
+self-test vectors, and the PLC target (IEC 61131-3 Structured Text, PLCopen XML).
 
 Every name below is loaded from its module on first use (see :mod:`stillhook.lazy`).
 """
@@ -22,6 +22,19 @@ _EXPORTS = {
     "render_files": "stillhook.firmware.plan",
     "emit_files": "stillhook.firmware.plan",
     "write_emit": "stillhook.firmware.plan",
+    "EMIT_TARGETS": "stillhook.firmware.plan",
+    "render_target": "stillhook.firmware.plan",
+    "render_st_files": "stillhook.firmware.render_st",
+    "st_blocks": "stillhook.firmware.render_st",
+    "st_pous": "stillhook.firmware.render_st",
+    "StBlock": "stillhook.firmware.render_st",
+    "ST_BLOCKS": "stillhook.firmware.render_st",
+    "check_st_prefix": "stillhook.firmware.render_st",
+    "StPou": "stillhook.firmware.st_pou",
+    "StVar": "stillhook.firmware.st_pou",
+    "st_text": "stillhook.firmware.st_pou",
+    "plcopen_xml": "stillhook.firmware.plcopen",
+    "OpCount": "stillhook.firmware.st_arith",
     "fraction_bits": "stillhook.firmware.qformat",
     "sample_limits": "stillhook.firmware.qformat",
     "round_shift": "stillhook.fixed_point",

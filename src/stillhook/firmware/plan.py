@@ -44,6 +44,7 @@ from stillhook.firmware.notch_tables import choose_notch_format
 from stillhook.firmware.qformat import FRACTION_BITS, ScheduleTable, quantize_amplitudes
 from stillhook.firmware.render_c import render_readme, render_tables_c, render_tables_h
 from stillhook.firmware.render_feedback import render_feedback_c, render_feedback_h
+from stillhook.firmware.render_st import check_st_prefix, render_st_files
 from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
 from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
@@ -55,8 +56,8 @@ from stillhook.shaping.envelope_design import schedule_for_project
 from stillhook.version import __version__
 
 __all__ = [
-    "EmitPlan", "ShaperRow", "emit_files", "notch_requested", "plan_for_project", "quantize_shaper", "render_files",
-    "write_emit",
+    "EMIT_TARGETS", "EmitPlan", "ShaperRow", "emit_files", "notch_requested", "plan_for_project", "quantize_shaper",
+    "render_files", "render_target", "write_emit",
 ]
 
 
@@ -360,18 +361,45 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
     return {k: files[k] for k in sorted(files)}
 
 
-def emit_files(project, **options) -> dict[str, str]:
+#: Emit targets: ``c`` (tables + portable C runtime, the default) and ``st`` (IEC 61131-3 Structured
+#: Text + PLCopen XML, :mod:`stillhook.firmware.render_st`). Both render the same EmitPlan.
+EMIT_TARGETS = {"c": render_files, "st": render_st_files}
+#: Extra rule a target puts on the prefix, checked before any design work.
+_PREFIX_RULES = {"st": check_st_prefix}
+
+
+def _renderer(target: str):
+    if target not in EMIT_TARGETS:
+        raise ConfigError(f"emit target {target!r} is not allowed; allowed: " + ", ".join(EMIT_TARGETS))
+    return EMIT_TARGETS[target]
+
+
+def render_target(plan: EmitPlan, target: str = "c") -> dict[str, str]:
+    """``{file name: text}`` of ``plan`` for ``target`` (a key of :data:`EMIT_TARGETS`)."""
+    return _renderer(target)(plan)
+
+
+def emit_files(project, *, target: str = "c", **options) -> dict[str, str]:
     """Pure: project -> ``{file name: text}`` (options as :func:`plan_for_project`)."""
-    return render_files(plan_for_project(project, **options))
+    return render_target(plan_for_project(project, **options), target)
 
 
-def write_emit(project, out_dir, **options) -> tuple[EmitPlan, list[Path]]:
+def write_emit(project, out_dir, *, target: str = "c", **options) -> tuple[EmitPlan, list[Path]]:
     """Emit into ``out_dir``: every file is written to a temporary folder first, then moved.
+
+    Parameters
+    ----------
+    target : {'c', 'st'}
+        C tables and runtime (default) or IEC 61131-3 Structured Text for a PLC.
 
     Returns
     -------
     (plan, written paths)
     """
+    render = _renderer(target)  # an unknown target or a prefix it cannot use is refused before the design work
+    if target in _PREFIX_RULES:
+        _PREFIX_RULES[target](_check_prefix(prefix if (prefix := options.get("prefix")) is not None
+                                            else project.firmware["prefix"]))
     plan = plan_for_project(project, **options)
-    files = render_files(plan)
+    files = render(plan)
     return plan, write_files(out_dir, files)

@@ -73,6 +73,9 @@ def _provenance(plan, title: str) -> list[str]:
         f"Rope length input: uint32 counts of {s.lsb_m:g} m; envelope {s.length_min} .. {s.length_max} counts; "
         "outside it the length is clamped and the lookup status says so.",
     ]
+    if e.get("rope_offset_m"):
+        lines.append(f"Rope lengths are the hoist encoder's; the design took the pendulum length as encoder rope + "
+                     f"{e['rope_offset_m']:g} m ([rig] rope_offset_m).")
     if plan.notch is not None:
         t = plan.notch.table
         lines.append(f"Notch: {t.n_stages} biquad stages, {t.fmt.upper()}, post_shift {t.post_shift}, at "

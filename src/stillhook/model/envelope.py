@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import finite_number
 from stillhook.errors import RigError
 from stillhook.model.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig, mode_frequencies_rad_s
 
@@ -33,6 +34,10 @@ class Envelope:
     gravity_m_s2 : float > 0
     nominal_rope_length_m, nominal_payload_mass_kg : float or None
         The design/demo point; default the middle of each range.
+    rope_offset_m : float, default 0
+        Pendulum length minus the hoist encoder's rope length (sheaves, hook block geometry):
+        L1 = rope_length_m + rope_offset_m. Rope lengths everywhere else (ranges, schedule rows,
+        emitted tables) are the encoder's; :meth:`pendulum_length_m` is the one place the offset is added.
     """
 
     hook_mass_kg: float
@@ -43,6 +48,7 @@ class Envelope:
     gravity_m_s2: float = STANDARD_GRAVITY_M_S2
     nominal_rope_length_m: float | None = None
     nominal_payload_mass_kg: float | None = None
+    rope_offset_m: float = 0.0
 
     def __post_init__(self) -> None:
         for name in ("rope_length_range_m", "payload_mass_range_kg"):
@@ -52,6 +58,11 @@ class Envelope:
             if lo > hi:
                 raise RigError(f"{name} = [{lo:g}, {hi:g}] has min > max; allowed: min <= max")
             object.__setattr__(self, name, (lo, hi))
+        object.__setattr__(self, "rope_offset_m", finite_number(
+            "rope_offset_m", self.rope_offset_m, allowed="a finite number (m)", error=RigError))
+        if self.rope_length_range_m[0] + self.rope_offset_m <= 0.0:
+            raise RigError(f"rope_offset_m = {self.rope_offset_m:g} makes the pendulum length at the shortest rope "
+                           f"({self.rope_length_range_m[0]:g} m) not positive; allowed: rope length + offset > 0")
         # validate every corner through Rig (masses, lengths, damping, gravity)
         for L in self.rope_length_range_m:
             for m in self.payload_mass_range_kg:
@@ -69,9 +80,17 @@ class Envelope:
             object.__setattr__(self, name, v)
 
     # -- points --------------------------------------------------------------------------
+    def pendulum_length_m(self, rope_length_m):
+        """Pendulum length L1 (trolley to hook) of an encoder rope length: L1 = rope_length_m + rope_offset_m.
+
+        Every model quantity of the envelope (rigs, frequency maps, residual maps, sweeps) goes through
+        this; the rope lengths the user and the drive see stay the encoder's.
+        """
+        return rope_length_m + self.rope_offset_m
+
     def rig(self, rope_length_m: float, payload_mass_kg: float) -> Rig:
-        """The rig at one point of the envelope."""
-        return Rig(self.hook_mass_kg, payload_mass_kg, rope_length_m, self.rigging_length_m,
+        """The rig at one point of the envelope (``rope_length_m`` as the encoder reads it)."""
+        return Rig(self.hook_mass_kg, payload_mass_kg, self.pendulum_length_m(rope_length_m), self.rigging_length_m,
                    self.gravity_m_s2, self.damping_ratio)
 
     @property
@@ -100,7 +119,7 @@ class Envelope:
         ndarray, shape (len(rope_lengths_m), len(payload_masses_kg), n_modes)
             n_modes is 2 for a two-mode envelope, 1 otherwise (single pendulum sqrt(g/L1)).
         """
-        L = np.asarray(rope_lengths_m, dtype=float)[:, None]
+        L = self.pendulum_length_m(np.asarray(rope_lengths_m, dtype=float)[:, None])
         m = np.asarray(payload_masses_kg, dtype=float)[None, :]
         if not self.has_two_modes:
             w = np.sqrt(self.gravity_m_s2 / L) * np.ones_like(m)
@@ -128,4 +147,5 @@ class Envelope:
             "gravity_m_s2": self.gravity_m_s2,
             "nominal_rope_length_m": self.nominal_rope_length_m,
             "nominal_payload_mass_kg": self.nominal_payload_mass_kg,
+            "rope_offset_m": self.rope_offset_m,
         }

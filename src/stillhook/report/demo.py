@@ -5,6 +5,7 @@ host self-test with the system C compiler when there is one, and writes one fold
 
     DIR/report.html, DIR/report.json, DIR/figures/*.png|svg
     DIR/firmware/   the emitted C tables, runtime, self-test source and manifest.json
+    DIR/commissioning/  the sway logs, their identification, the fit and the calibrated project
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ from pathlib import Path
 
 from stillhook.errors import EmitError
 from stillhook.outputs import check_out_dir, write_files
-from stillhook.project import load_demo_project
+from stillhook.report.commissioning_demo import commission_demo, commissioning_files, finish_study
 from stillhook.report.folder import report_files
 from stillhook.report.study import REPORT_GRID, build_study
 
@@ -109,10 +110,14 @@ class DemoResult:
     selftest: dict
     written: list
     timings_s: dict
+    commissioning: object = None
 
 
 def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = True, progress=None) -> DemoResult:
     """Run the whole job on the demo project and write ``out_dir`` (all files at once).
+
+    The job starts from the commissioning logs: the demo project is calibrated against them
+    (:mod:`stillhook.report.commissioning_demo`) and everything after is made from the calibrated project.
 
     Parameters
     ----------
@@ -132,8 +137,14 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     """
     t_start = time.perf_counter()
     check_out_dir(out_dir)
-    project = load_demo_project()
-    study = build_study(project, grid=grid or REPORT_GRID, progress=progress)
+    if progress is not None:
+        progress("commissioning (identify, calibrate)")
+    t0 = time.perf_counter()
+    demo = commission_demo()
+    t_commission = time.perf_counter() - t0
+    study = build_study(demo.project, grid=grid or REPORT_GRID, progress=progress)
+    finish_study(study, demo)
+    study.timings_s["commissioning"] = t_commission
     if study.firmware_files is None:
         raise EmitError(f"the demo's firmware could not be emitted: {study.problems.get('firmware', 'unknown')}")
     if progress is not None:
@@ -150,8 +161,9 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
         progress("report")
     t0 = time.perf_counter()
     files = report_files(study)
+    files.update(commissioning_files(demo))
     files.update({f"firmware/{name}": text for name, text in study.firmware_files.items()})
     study.timings_s["report"] = time.perf_counter() - t0
     written = write_files(out_dir, dict(sorted(files.items())))
     study.timings_s["total"] = time.perf_counter() - t_start
-    return DemoResult(study, result, written, dict(study.timings_s))
+    return DemoResult(study, result, written, dict(study.timings_s), demo)

@@ -14,6 +14,7 @@ from matplotlib.colors import TwoSlopeNorm
 from matplotlib.figure import Figure
 
 from stillhook.errors import ConfigError
+from stillhook.report.commissioning_figures import sway_fit_figure
 from stillhook.report.feedback_figures import closed_loop_response_figure, damping_map_figure
 from stillhook.report.figure_data import DESIGN_COLORS
 
@@ -159,7 +160,8 @@ def residual_map_figure(data: dict):
 
 _RENDERERS = {"sensitivity": sensitivity_figure, "time_response": time_response_figure,
               "frequency_map": frequency_map_figure, "residual_map": residual_map_figure,
-              "damping_map": damping_map_figure, "closed_loop_response": closed_loop_response_figure}
+              "damping_map": damping_map_figure, "closed_loop_response": closed_loop_response_figure,
+              "sway_fit": sway_fit_figure}
 
 
 def render(data: dict):

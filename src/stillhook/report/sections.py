@@ -201,7 +201,7 @@ def section_modes(study, png) -> str:
             for i, m in enumerate(rig.modes())]
     bands = [[str(i + 1), num(lo), num(hi), num(hi / lo, ".3g")] for i, (lo, hi) in enumerate(env.mode_bands_hz())]
     out = ["<h2>2. Sway modes</h2>",
-           f"<p>At the nominal rig ({num(rig.rope_length_m)} m rope, {num(rig.payload_mass_kg)} kg payload). "
+           f"<p>At the nominal rig ({num(env.nominal_rope_length_m)} m rope, {num(rig.payload_mass_kg)} kg payload). "
            "x2/x1 is the payload-to-hook displacement ratio of the mode shape (negative: hook and payload swing "
            "against each other); participation is the sway amplitude a 1 m/s&sup2; acceleration step leaves in "
            "that mode.</p>",

@@ -22,6 +22,7 @@ from stillhook.errors import ConfigError, StillhookError
 from stillhook.firmware.plan import plan_for_project, render_files
 from stillhook.notch.design import notch_for_project
 from stillhook.report import figure_data as plot_data
+from stillhook.report.commissioning_section import commissioning_data
 from stillhook.report.feedback_section import feedback_figures, feedback_json, feedback_study
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.study.compare import compare_project
@@ -53,6 +54,7 @@ class Study:
     firmware_files: dict | None = None
     selftest: dict | None = None
     feedback: dict | None = None
+    commissioning: dict | None = None
     figures: dict = field(default_factory=dict)
     problems: dict = field(default_factory=dict)
     timings_s: dict = field(default_factory=dict)
@@ -103,6 +105,7 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     t0 = time.perf_counter()
     study.design = design_for_project(project)  # without a design there is no report
     study.timings_s["design"] = time.perf_counter() - t0
+    study.commissioning = _step(study, "commissioning", lambda: commissioning_data(project, study.design))
     say("notch")
     study.notch = _step(study, "notch", lambda: notch_for_project(project))
     say("comparison")
@@ -183,6 +186,7 @@ def report_json(study: Study) -> dict:
         "firmware": firmware_summary(study),
         "selftest": study.selftest,
         "feedback": feedback_json(study.feedback),
+        "commissioning": study.commissioning,
         "problems": dict(sorted(study.problems.items())),
         "figures": study.figures,
         "cautions": list(CAUTIONS),

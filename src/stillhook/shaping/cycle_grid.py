@@ -64,6 +64,25 @@ def _split(shaper: Shaper, cycle_s: float) -> Shaper:
     return Shaper.from_impulses(times, amps, shaper.name + "|split")
 
 
+def _polish(x: np.ndarray, A_eq: np.ndarray, b_eq: np.ndarray, positive: bool) -> np.ndarray:
+    """Meet the LP's equality rows to machine precision on its support.
+
+    The solver meets A x = b only to its feasibility tolerance, scaled by its own row scaling; on
+    long shapers with thousands of cycles that leaves V ~ 1e-8. The minimum-norm correction on the
+    support S, dx_S = A_S^+ (b - A x), removes it (kept only when it keeps the signs allowed).
+    """
+    x = np.where(np.abs(x) < 1e-13, 0.0, x)
+    S = np.flatnonzero(x)
+    if S.size == 0:
+        return x
+    dx, *_ = np.linalg.lstsq(A_eq[:, S], b_eq - A_eq @ x, rcond=None)
+    polished = x.copy()
+    polished[S] += dx
+    if positive and np.any(polished[S] < 0.0):
+        return x
+    return polished
+
+
 def _resolve(shaper: Shaper, cycle_s: float, freqs_hz, zeta: float) -> Shaper:
     if freqs_hz is None or len(np.atleast_1d(freqs_hz)) == 0:
         raise DesignError("remedy 'resolve' needs the design frequencies (freqs_hz); "
@@ -95,8 +114,7 @@ def _resolve(shaper: Shaper, cycle_s: float, freqs_hz, zeta: float) -> Shaper:
                           bounds=bounds, method="highs",
                           options={"primal_feasibility_tolerance": 1e-10, "dual_feasibility_tolerance": 1e-10})
             if res.status == 0:
-                x = res.x[:n]
-                x[np.abs(x) < 1e-13] = 0.0
+                x = _polish(res.x[:n], A_eq, b_eq, positive)
                 return Shaper.from_impulses(k * cycle_s, x, shaper.name + "|resolve")
     raise DesignError(f"cannot re-solve shaper {shaper.name or '(unnamed)'} on a {cycle_s:g} s grid; "
                       "allowed: remedy 'split' or 'round', or a shorter drive cycle")

@@ -50,7 +50,7 @@ def payload_participations(envelope: Envelope, rope_lengths_m, payload_masses_kg
         n_modes = 2 for a two-mode envelope (low first), 1 otherwise. At a payload mass of 0 the
         second mode's participation is 0 (a single pendulum, payload in line).
     """
-    L1 = np.asarray(rope_lengths_m, dtype=float)[:, None]
+    L1 = envelope.pendulum_length_m(np.asarray(rope_lengths_m, dtype=float)[:, None])  # encoder -> pendulum
     m2 = np.asarray(payload_masses_kg, dtype=float)[None, :]
     modes = batch_modes(envelope.hook_mass_kg, m2, L1, envelope.rigging_length_m, envelope.gravity_m_s2)
     n_modes = 2 if envelope.has_two_modes else 1

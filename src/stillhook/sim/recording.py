@@ -13,16 +13,26 @@ from stillhook.sim.dynamics import SimResult
 
 __all__ = ["CSV_COLUMNS", "sim_csv", "sim_plot_png"]
 
-CSV_COLUMNS = ("t_s", "trolley_position_m", "trolley_speed_m_s", "rope_length_m", "theta1_rad", "theta2_rad",
-               "hook_offset_m", "payload_offset_m")
+#: CSV column -> SimResult attribute. The names are the sway-log columns ``stillhook identify`` and
+#: ``stillhook calibrate`` read (stillhook.commission.logs), so a simulated move can be identified.
+CSV_COLUMNS = {"time_s": "t_s", "trolley_position_m": "trolley_position_m", "trolley_speed_m_s": "trolley_speed_m_s",
+               "rope_length_m": "rope_length_m", "hook_angle_rad": "theta1_rad", "payload_angle_rad": "theta2_rad",
+               "hook_offset_m": "hook_offset_m", "payload_offset_m": "payload_offset_m"}
 
 
-def sim_csv(result: SimResult) -> str:
-    """CSV text of the time series, one row per output sample, fixed 9 significant digits."""
-    cols = np.column_stack([getattr(result, c) for c in CSV_COLUMNS])
+def sim_csv(result: SimResult, *, payload_mass_kg: float | None = None, rope_offset_m: float = 0.0) -> str:
+    """CSV text of the time series, one row per output sample, fixed 9 significant digits.
+
+    ``rope_length_m`` is written as the hoist encoder reads it: the pendulum length minus ``rope_offset_m``;
+    ``payload_mass_kg``, when given, adds that column.
+    """
+    values = {name: getattr(result, attr) for name, attr in CSV_COLUMNS.items()}
+    values["rope_length_m"] = values["rope_length_m"] - rope_offset_m
+    if payload_mass_kg is not None:
+        values["payload_mass_kg"] = np.full(result.t_s.size, float(payload_mass_kg))
     buf = io.StringIO()
-    buf.write(",".join(CSV_COLUMNS) + "\n")
-    np.savetxt(buf, cols, delimiter=",", fmt="%.9g")
+    buf.write(",".join(values) + "\n")
+    np.savetxt(buf, np.column_stack(list(values.values())), delimiter=",", fmt="%.9g")
     return buf.getvalue()
 
 

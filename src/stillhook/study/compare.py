@@ -272,7 +272,7 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
         rest_threshold_m=threshold, unshaped_end_s=unshaped_end, settle_window_s=base.settle_s,
         hoist=hoist is not None,
         rig={"hook_mass_kg": rig.hook_mass_kg, "payload_mass_kg": rig.payload_mass_kg,
-             "rope_length_m": rig.rope_length_m, "rigging_length_m": rig.rigging_length_m,
+             "rope_length_m": project.envelope.nominal_rope_length_m, "rigging_length_m": rig.rigging_length_m,
              "damping_ratio": rig.damping_ratio,
              "modes_hz": [m.frequency_hz for m in rig.modes()]},
         notes=tuple(notes),

@@ -70,7 +70,11 @@ def run_controllers(project, controllers=CONTROLLERS, scenario: Scenario = Scena
         step = None
         if "feedback" in name:
             feedback = feedback_for_project(project) if feedback is None else feedback
-            step = FeedbackController(feedback, follow_reference="shaper" in name).step
+            ctrl = FeedbackController(feedback, follow_reference="shaper" in name)
+            offset = project.envelope.rope_offset_m
+
+            def step(y, pendulum_m, r, ctrl=ctrl, offset=offset):  # the drive reads the encoder's rope length
+                return ctrl.step(y, pendulum_m - offset, r)
         out[name] = run_closed_loop(rig, reference, T, tau, step, sensor=sensor, hoist_m_s=hoist,
                                     initial_angles_rad=(scenario.initial_sway_rad, scenario.initial_sway_rad),
                                     gust_n=scenario.gust_n, gust_s=scenario.gust_s)

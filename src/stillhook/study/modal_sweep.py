@@ -105,7 +105,10 @@ class ModalBatch:
             raise ConfigError("rope lengths must be finite and > 0 (m)")
         if not (np.all(np.isfinite(m2)) and np.all(m2 >= 0)):
             raise ConfigError("payload masses must be finite and >= 0 (kg)")
-        modes = batch_modes(envelope.hook_mass_kg, m2, L1, envelope.rigging_length_m, envelope.gravity_m_s2)
+        Lp = envelope.pendulum_length_m(L1)  # pendulum length of the encoder rope lengths L1
+        if not np.all(Lp > 0):
+            raise ConfigError("rope lengths plus the rope offset must be > 0 (m)")
+        modes = batch_modes(envelope.hook_mass_kg, m2, Lp, envelope.rigging_length_m, envelope.gravity_m_s2)
         # unit-oscillator gains from the step participations: a unit step leaves y_i = -1 / w_i^2
         w = modes.omega_rad_s
         p = -modes.payload_participation_m_per_m_s2 * (w * w)

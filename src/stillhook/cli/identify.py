@@ -1,0 +1,92 @@
+"""``stillhook identify``: the sway modes of a log (frequency, damping, amplitude with standard deviations)."""
+
+from __future__ import annotations
+
+import argparse
+
+from stillhook.cli._common import add_json_argument, format_table, print_bullets, print_json
+
+HELP = "identify the sway modes (frequency, damping ratio, with standard deviations) in a sway log CSV"
+
+
+def add_log_options(p: argparse.ArgumentParser) -> None:
+    """Options shared with ``calibrate``: column mapping and scaling."""
+    p.add_argument("--column", action="append", metavar="NAME=SRC", default=[],
+                   help="read log column NAME (e.g. payload_offset_m) from the CSV column SRC; repeatable")
+    p.add_argument("--scale", action="append", metavar="NAME=FACTOR", default=[],
+                   help="multiply log column NAME by FACTOR (e.g. payload_offset_m=0.001 for mm); repeatable")
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("log", metavar="LOG.csv", help="sway log: time_s and at least one sway signal column")
+    p.add_argument("--project", metavar="PROJECT.toml", default=None,
+                   help="project ('demo' for the built-in one): narrows the search, numbers the modes, says "
+                        "which predicted mode is not observable")
+    p.add_argument("--window", type=float, nargs=2, metavar=("START", "END"), default=None,
+                   help="use only this time window (s) instead of the free-sway segments found")
+    p.add_argument("--rope-length-m", type=float, metavar="M", default=None,
+                   help="rope length for a log without a rope_length_m column")
+    p.add_argument("--payload-mass-kg", type=float, metavar="KG", default=None,
+                   help="payload mass for a log without a payload_mass_kg column")
+    add_log_options(p)
+    p.add_argument("--out", metavar="DIR", default=None,
+                   help="write identify.json and one figure per segment (PNG, SVG) into DIR")
+    add_json_argument(p)
+
+
+def run(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from stillhook.commission.session import (
+        identify_json,
+        identify_logs,
+        parse_mapping,
+        segment_figure_data,
+        session_cautions,
+    )
+    from stillhook.outputs import check_out_dir, to_json, write_files
+    from stillhook.project import load_project_or_demo
+
+    project = load_project_or_demo(args.project) if args.project is not None else None
+    if args.out is not None:
+        check_out_dir(args.out)
+    name = Path(args.log).name
+    per_log = {k: {name: v} for k, v in (("rope", args.rope_length_m), ("mass", args.payload_mass_kg)) if v is not None}
+    (result,) = identify_logs([args.log], envelope=project.envelope if project else None, window_s=args.window,
+                              columns=parse_mapping(args.column, "--column", numbers=False),
+                              scales=parse_mapping(args.scale, "--scale", numbers=True),
+                              rope_lengths=per_log.get("rope"), payload_masses=per_log.get("mass"))
+    data = identify_json(result)
+    if args.out is not None:
+        from stillhook.report.figures import figure_files
+
+        figs = {f"segment_{i + 1}": segment_figure_data(name, i, s) for i, s in enumerate(result.segments)}
+        files = {f"figures/{k}": v for k, v in figure_files(figs).items()}
+        files["identify.json"] = to_json(data)
+        write_files(args.out, files)
+    if args.json:
+        print_json(data)
+        return 0
+    _print(result, data, session_cautions(), args.out)
+    return 0
+
+
+def _print(result, data, cautions, out) -> None:
+    log = result.log
+    print(f"{log.name}: {log.time_s.size} samples at {log.sample_rate_hz:.4g} Hz (interval spread "
+          f"{100 * log.jitter:.2g} % of the median), signals {', '.join(log.signals)}")
+    rows = []
+    for n, seg in enumerate(result.segments, start=1):
+        for k, m in enumerate(seg.modes):
+            label = str(seg.mode_numbers[k]) if seg.mode_numbers else "-"
+            rows.append([n, f"{seg.start_s:g}-{seg.end_s:g}", "-" if seg.rope_length_m is None else
+                         f"{seg.rope_length_m:.4g}", label, f"{m.frequency_hz:.6g}", f"{m.frequency_sd_hz:.2g}",
+                         f"{m.damping_ratio:.4g}", f"{m.damping_ratio_sd:.2g}", f"{m.amplitude:.4g}", m.signal,
+                         f"{seg.fit_rms_ratio:.3g}"])
+    print(format_table(["seg", "time (s)", "rope (m)", "mode", "frequency (Hz)", "sd (Hz)", "damping ratio", "sd",
+                        "amplitude", "signal", "fit rms ratio"], rows))
+    print_bullets("Notes", data["notes"])
+    print_bullets("Warnings", data["warnings"])
+    if out is not None:
+        print(f"\nwrote {out}/identify.json and {len(result.segments)} figure(s) in {out}/figures")
+    print_bullets("Cautions", cautions)
