@@ -151,3 +151,20 @@ def test_each_row_reports_the_damping_its_gains_give(design):
         assert min_damping_ratio(poles, design.cycle_s) == pytest.approx(row.regulator_damping_ratio, abs=1e-9)
         observer = np.linalg.eigvals(row.A_o - row.L @ row.C_o)
         assert min_damping_ratio(observer, design.cycle_s) == pytest.approx(row.observer_damping_ratio, abs=1e-9)
+
+
+def test_rows_are_encoder_rope_lengths_and_plants_the_pendulum_lengths():
+    # [rig] rope_offset_m: the schedule and the check use the encoder's rope length, the models L + offset
+    from stillhook.feedback.design import feedback_for_project
+    from stillhook.feedback.robustness import check_envelope
+    from stillhook.project import project_from_dict
+
+    p = project_from_dict({"rig": {"hook_mass_kg": 200.0, "rigging_length_m": 1.5, "rope_length_m": [3.0, 4.0],
+                                   "rope_offset_m": 0.5, "payload_mass_kg": 300.0},
+                           "drive": {"cycle_s": 0.01, "max_speed_m_s": 0.5, "max_accel_m_s2": 0.3},
+                           "feedback": {"rows": 2}})
+    d = feedback_for_project(p)
+    assert [r.rope_length_m for r in d.rows] == pytest.approx([3.0, 4.0])
+    assert [r.plant.rig.rope_length_m for r in d.rows] == pytest.approx([3.5, 4.5])
+    check = check_envelope(d, p.envelope, 0.03, n_rope=3, n_payload=2)
+    assert min(pt.rope_length_m for pt in check.points) == pytest.approx(3.0)
