@@ -13,7 +13,7 @@ _CONTROLLER_COLORS = {"none": "#7f7f7f", "shaper": "#1f77b4", "feedback": "#d627
 def damping_map_figure(data: dict):
     """Least closed-loop damping ratio over payload mass (x) and rope length (y), rows' switches marked."""
     L, m, Z = (np.asarray(data[k]) for k in ("rope_length_m", "payload_mass_kg", "damping_ratio"))
-    fig = Figure(figsize=(6.4, 4.4))
+    fig = Figure(figsize=(6.4, 4.6), layout="constrained")
     ax = fig.subplots()
     pc = ax.pcolormesh(m, L, Z, shading="nearest", rasterized=True, cmap="viridis")
     fig.colorbar(pc, ax=ax, label="least closed-loop damping ratio")
@@ -24,7 +24,7 @@ def damping_map_figure(data: dict):
     ax.set_xlabel("payload mass (kg)")
     ax.set_ylabel("rope length (m)")
     ax.grid(False)
-    ax.set_title(f"{data['title']} (x: worst, dashed: row switches; accepted >= {data['min_damping_ratio']:g})",
+    ax.set_title(f"{data['title']}\nx: worst point; dashed: row switches; accepted >= {data['min_damping_ratio']:g}",
                  loc="left", fontsize=9)
     return fig
 
@@ -32,7 +32,7 @@ def damping_map_figure(data: dict):
 def closed_loop_response_figure(data: dict):
     """Payload offset against time for each scenario and controller."""
     scen = data["scenarios"]
-    fig = Figure(figsize=(8.0, 2.6 * len(scen)))
+    fig = Figure(figsize=(8.0, 2.8 * len(scen)), layout="constrained")
     axes = np.atleast_1d(fig.subplots(len(scen), 1))
     for ax, sc in zip(axes, scen, strict=True):
         for name, y in sc["payload_offset_m"].items():
