@@ -4,8 +4,9 @@ Prints, for 256 and 1,024 rigs of the demo envelope (16 x 16 and 32 x 32 grids):
 
 - the sweep's wall time as a fresh process (``python -m stillhook sweep demo --grid ... --json``),
   i.e. counting interpreter start-up, imports, the design and the sweep itself;
-- the loop's wall time: the same design, then ``stillhook.sim.dynamics.simulate`` for every rig and
-  every design (unshaped, shaper, schedule: the same commands the sweep uses);
+- the loop's wall time: the same design, then the per-rig solve_ivp simulator stillhook had before
+  its batch engine (``reference_solve_ivp.simulate_solve_ivp``) for every rig and every design
+  (unshaped, shaper, schedule: the same commands the sweep uses);
 - the speed ratio and the largest disagreement, as a fraction of the unshaped residual at that rig;
 - the times of the design, the firmware emit and the whole demo.
 
@@ -27,6 +28,8 @@ import tempfile
 import time
 
 import numpy as np
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))  # reference_solve_ivp beside this file
 
 KEYS = ("unshaped", "shaper", "schedule")
 
@@ -56,8 +59,9 @@ def solve_ivp_loop(project, n_side: int, t_design: float) -> dict:
     The design is computed (or taken from the in-process cache) outside the timing and counted
     as ``t_design``, its cold time in a fresh process.
     """
+    from reference_solve_ivp import simulate_solve_ivp as simulate
+
     from stillhook.shaping.envelope_design import design_for_project
-    from stillhook.sim.dynamics import simulate
     from stillhook.sim.profiles import trapezoid
     from stillhook.study.sweep import DEFAULT_DISTANCE_M, grid_points, project_designs
 

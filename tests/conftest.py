@@ -5,10 +5,16 @@ from __future__ import annotations
 import contextlib
 import io
 import json
+import os
 
 import pytest
 
 from stillhook.cli import main
+
+# Every test session designs afresh (the design code is what is under test); tests of the disk store
+# turn it on in a temporary folder.
+os.environ["STILLHOOK_DESIGN_CACHE"] = "off"
+
 from stillhook.project import load_demo_project
 
 

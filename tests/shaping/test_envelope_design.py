@@ -155,3 +155,19 @@ def test_single_mode_and_single_point_envelopes(rig, n_bands):
     assert len(d.bands_hz) == n_bands and d.shaper.on_grid(0.01) and d.meets_tolerance
     for lo, hi in d.bands_hz:  # a single point still gets a +-2 % band (robustness to the estimate)
         assert hi / lo >= 1.04 * (1 - 1e-9)
+
+
+def test_design_reports_its_stages_as_they_finish():
+    # the work is known up front (the whole-envelope shaper, then each schedule row) and reported in order
+    from stillhook.project import project_from_dict
+    from stillhook.shaping.envelope_design import schedule_row_count
+
+    p = project_from_dict({"rig": {"hook_mass_kg": 300.0, "rigging_length_m": 2.0, "rope_length_m": [2.0, 3.5],
+                                   "payload_mass_kg": 400.0},
+                           "drive": {"cycle_s": 0.01, "max_speed_m_s": 0.5, "max_accel_m_s2": 0.3},
+                           "design": {"tolerance_pct": 4.5}})
+    seen = []
+    d = design_for_project(p, progress=lambda done, total: seen.append((done, total)))
+    total = 1 + schedule_row_count(p)
+    assert schedule_row_count(p) == len(d.schedule.shapers) >= 2
+    assert seen == [(k, total) for k in range(1, total + 1)]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import sys
 
 from stillhook.cli._common import (
     add_json_argument,
@@ -114,13 +115,30 @@ def _print_request(out: dict) -> None:
         _print_impulses(dc["impulses"])
 
 
+def _design_progress(project):
+    """Say the work up front, then draw a one-line bar on stderr as the design's stages finish."""
+    from stillhook.shaping.envelope_design import schedule_row_count
+
+    rows = schedule_row_count(project)
+    sys.stderr.write(f"shaper: designing the envelope shaper{f' and {rows} schedule rows' if rows else ''} ...\n")
+
+    def draw(done: int, total: int) -> None:
+        filled = int(30 * done / max(total, 1))
+        sys.stderr.write(f"\rdesign [{'#' * filled}{'.' * (30 - filled)}] {done}/{total} stages")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+    return draw
+
+
 def _run_project(args) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.project import load_project_or_demo
     from stillhook.shaping.envelope_design import design_for_project
 
     project = load_project_or_demo(args.project)
-    d = design_for_project(project)
+    d = design_for_project(project, progress=_design_progress(project) if not args.json and sys.stderr.isatty()
+                           else None)
     out = {"project": project.name, "digest": project.digest, **d.as_dict(), "cautions": list(CAUTIONS)}
     if args.json:
         print_json(out)

@@ -25,7 +25,7 @@ import numpy as np
 
 from stillhook.errors import ConfigError
 from stillhook.model.lookup import row_edges_m, schedule_rows
-from stillhook.sim.dynamics import simulate
+from stillhook.sim.dynamics import simulate_batch
 from stillhook.sim.profiles import project_move
 
 __all__ = [
@@ -128,10 +128,11 @@ def time_response_data(project, filters: dict, *, distance_m: float | None = Non
     # A command longer than the window (a notch's ring-out) is cut two cycles after it: the motion
     # up to t_end does not depend on the command after t_end (causality), and the cut is not shown.
     n_win = math.ceil(t_end / T - 1e-9) + 2
+    cmds = [cmd[:n_win] for _, _, cmd in runs]
+    results = simulate_batch(rig, cmds, T, hoist_speed_m_s=hoist, rtol=rtol,
+                             settle_s=[max(T, t_end - (len(cmd) - 1) * T) + T for cmd in cmds])
     series, n = [], None
-    for key, label, cmd in runs:
-        cmd = cmd[:n_win]
-        res = simulate(rig, cmd, T, hoist_speed_m_s=hoist, rtol=rtol, settle_s=max(T, t_end - (len(cmd) - 1) * T) + T)
+    for (key, label, _), res in zip(runs, results, strict=True):
         keep = res.t_s <= t_end + 1e-9
         n = int(keep.sum()) if n is None else min(n, int(keep.sum()))
         series.append((key, label, res))

@@ -25,9 +25,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import linprog
 
 from stillhook.errors import DesignError
+from stillhook.shaping.lp_solve import solve_lp
 from stillhook.shaping.shaper import Shaper, check_cycle, check_damping, worst_vibration
 
 __all__ = ["REMEDIES", "grid_effects", "to_cycle_grid"]
@@ -110,9 +110,9 @@ def _resolve(shaper: Shaper, cycle_s: float, freqs_hz, zeta: float) -> Shaper:
             A_ub = np.block([[eye, -eye], [-eye, -eye]])
             b_ub = np.concatenate([x_ref, -x_ref])
             bounds = [(0.0, None) if positive else (None, None)] * n + [(0.0, None)] * n
-            res = linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=np.hstack([A_eq, np.zeros_like(A_eq)]), b_eq=b_eq,
-                          bounds=bounds, method="highs",
-                          options={"primal_feasibility_tolerance": 1e-10, "dual_feasibility_tolerance": 1e-10})
+            res = solve_lp(c, A_ub=A_ub, b_ub=b_ub, A_eq=np.hstack([A_eq, np.zeros_like(A_eq)]), b_eq=b_eq,
+                           bounds=bounds, method="highs",
+                           options={"primal_feasibility_tolerance": 1e-10, "dual_feasibility_tolerance": 1e-10})
             if res.status == 0:
                 x = _polish(res.x[:n], A_eq, b_eq, positive)
                 return Shaper.from_impulses(k * cycle_s, x, shaper.name + "|resolve")

@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -41,13 +42,14 @@ from stillhook.shaping.band_design import band_shaper, family_region, multi_band
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
 from stillhook.shaping.design_cache import DESIGN_CACHE
+from stillhook.shaping.design_store import load_or_make
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "MIN_BAND_HALF_WIDTH", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
-    "design_for_project", "schedule_for_project", "schedule_ratio", "schedule_rope_lengths",
+    "design_for_project", "schedule_for_project", "schedule_ratio", "schedule_row_count", "schedule_rope_lengths",
 ]
 
 #: Design to this fraction below the tolerance (fixed-point amplitude rounding, grid sampling).
@@ -325,7 +327,7 @@ def schedule_rope_lengths(env, max_rows: int) -> np.ndarray:
     return rows
 
 
-def _schedule(project, whole: Shaper) -> Schedule:
+def _schedule(project, whole: Shaper, progress=None, total: int = 0) -> Schedule:
     env, cycle = project.envelope, float(project.drive["cycle_s"])
     tol = project.design["tolerance_pct"] / 100.0
     tol_d = tol * (1.0 - DESIGN_MARGIN)
@@ -347,6 +349,8 @@ def _schedule(project, whole: Shaper) -> Schedule:
             s = whole  # the whole-envelope shaper also serves this row and is shorter
         shapers.append(s)
         treated.append(high)
+        if progress is not None:
+            progress(1 + len(shapers), total)
     n_high = sum(treated)
     reason = (f"{rows.size} rows spaced evenly in log(rope + rigging length) (about {100 * ROW_SPREAD:g} % of "
               f"low-mode frequency per row); high mode treated in {n_high} of {rows.size} rows")
@@ -364,14 +368,18 @@ def schedule_ratio(env, schedule: Schedule, rope_lengths_m, payload_masses_kg) -
 
 
 # -- public API ---------------------------------------------------------------------------------
-def design_for_project(project) -> Design:
+def design_for_project(project, *, progress: Callable[[int, int], None] | None = None) -> Design:
     """Design the envelope shaper (and the schedule when ``[design] schedule`` is true).
 
     Parameters
     ----------
     project : stillhook.project.Project
         Uses the envelope, ``[drive] cycle_s`` and ``[design]`` tolerance_pct, method, schedule,
-        max_schedule_rows. Results are cached per (envelope, drive, design) within the process.
+        max_schedule_rows. Results are cached per (envelope, drive, design) within the process and on
+        disk (:mod:`stillhook.shaping.design_cache`).
+    progress : callable(done, total), optional
+        Called as the stages finish: the whole-envelope shaper, then each schedule row
+        (total = 1 + :func:`schedule_row_count`). Not called for a cached design.
 
     Returns
     -------
@@ -383,7 +391,16 @@ def design_for_project(project) -> Design:
         A mode that needs treatment lies above half the drive rate, or no shaper meets the
         tolerance over the bands.
     """
-    return DESIGN_CACHE.get("project_design", _key(project, "design"), lambda: _design(project))
+    key = _key(project, "design")
+    # in-process cache first, then the disk store (a design this code computed before), else design now
+    return DESIGN_CACHE.get("project_design", key, lambda: load_or_make(key, lambda: _design(project, progress)))
+
+
+def schedule_row_count(project) -> int:
+    """Schedule rows the design of ``project`` will solve (0 without a schedule): the work estimate up front."""
+    if not project.design["schedule"]:
+        return 0
+    return int(schedule_rope_lengths(project.envelope, int(project.design["max_schedule_rows"])).size)
 
 
 def schedule_for_project(project) -> Schedule:
@@ -394,7 +411,7 @@ def schedule_for_project(project) -> Schedule:
     return DESIGN_CACHE.get("project_design", _key(project, "schedule"), lambda: _schedule(project, d.shaper))
 
 
-def _design(project) -> Design:
+def _design(project, progress=None) -> Design:
     env, cycle = project.envelope, float(project.drive["cycle_s"])
     tol = project.design["tolerance_pct"] / 100.0
     tol_d = tol * (1.0 - DESIGN_MARGIN)
@@ -408,8 +425,11 @@ def _design(project) -> Design:
     k = np.unravel_index(int(np.argmax(ratio)), ratio.shape)
     worst_v = [worst_vibration(shaper, lo, hi, zeta)[0] for lo, hi in bands]
     schedule, sched_ratio = None, None
+    total = 1 + schedule_row_count(project)
+    if progress is not None:
+        progress(1, total)
     if project.design["schedule"]:
-        schedule = _schedule(project, shaper)
+        schedule = _schedule(project, shaper, progress, total)
         Ls_dense = np.linspace(*env.rope_length_range_m, 4 * CHECK_GRID[0])
         sched_ratio = float(schedule_ratio(env, schedule, Ls_dense, grid[1]).max())
     return Design(shaper=shaper, schedule=schedule, high_mode_treated=high, reason=reason,

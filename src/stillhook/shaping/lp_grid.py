@@ -6,7 +6,8 @@ shortest impulse sequence with A_i >= 0, sum A_i = 1 and V(w) <= Vtol for every 
 With the impulse times fixed on a grid tau_j = j h (j = 0..N), V(w) = |sum_j x_j e_j(w)| with
 e_j(w) = exp(-zeta w (tau_N - tau_j)) exp(j w_d tau_j), so "V <= s" is convex in the amplitudes x
 and equals the family of half-planes Re(exp(-j phi) sum_j x_j e_j(w)) <= s over all phases phi.
-A linear program (scipy.optimize.linprog, HiGHS dual simplex) minimizes s subject to a growing set
+A linear program (HiGHS dual simplex, with a bounded effort and an interior-point retry:
+:func:`stillhook.shaping.lp_solve.solve_lp`) minimizes s subject to a growing set
 of such cuts (w, phi): after each solve V is evaluated on a dense frequency grid, its maxima are
 refined, and every maximum near or above Vtol adds the cut tangent at its own phase (Kelley's
 cutting-plane method). The LP's s is a lower bound on the true minimax, so "s > Vtol" proves the
@@ -29,8 +30,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import linprog
 
+from stillhook.shaping.lp_solve import solve_lp
 from stillhook.shaping.shaper import Shaper, worst_vibration
 
 __all__ = ["MAX_BASIS_ENTRIES", "ProblemTooLarge", "optimize_on_grid"]
@@ -131,8 +132,8 @@ def _minimax(prob: _Bands, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.
             w, phi = np.array(prob.cuts_w[rows.shape[0]:]), np.array(prob.cuts_phi[rows.shape[0]:])
             rows = np.vstack([rows, np.real(np.exp(-1j * phi)[:, None] * prob.basis(w, tau))])
         A_ub = np.hstack([rows, -np.ones((rows.shape[0], 1))])
-        res = linprog(c, A_ub=A_ub, b_ub=np.zeros(rows.shape[0]), A_eq=A_eq, b_eq=[1.0],
-                      bounds=[(0.0, None)] * (n + 1), method="highs-ds", options={"presolve": False})
+        res = solve_lp(c, A_ub=A_ub, b_ub=np.zeros(rows.shape[0]), A_eq=A_eq, b_eq=[1.0],
+                       bounds=[(0.0, None)] * (n + 1), method="highs-ds", options={"presolve": False})
         if res.status != 0:
             return None
         x, s = res.x[:n], res.x[-1]

@@ -6,11 +6,11 @@ computes each cycle's command from the measured sway, so here the trolley's spee
     v' = (u[k] - v) / tau                 the drive's speed loop (first-order lag), u held over cycle k
     x' = v
 
-and the rig follows the nonlinear equations of :mod:`stillhook.sim.dynamics` with the trolley
-acceleration a = v', the hoist's piecewise-linear speed, and a horizontal force F(t) on the payload,
-which adds the generalized forces Q1 = F L1 cos(theta1), Q2 = F L2 cos(theta2) (virtual work of F on
-x2 = x + L1 sin(theta1) + L2 sin(theta2)). One cycle is integrated by classical RK4 with
-w_max h <= 0.02 and h <= tau / 5.
+and the rig follows the large-angle equations written once in :mod:`stillhook.sim.equations` (the
+batch engine's) with the trolley acceleration a = v', the hoist's piecewise-linear speed, and a
+horizontal force F(t) on the payload, which adds the generalized forces Q1 = F L1 cos(theta1),
+Q2 = F L2 cos(theta2) (virtual work of F on x2 = x + L1 sin(theta1) + L2 sin(theta2)). One cycle is
+integrated by classical RK4 with w_max h <= 0.02 and h <= tau / 5.
 
 The sensor reads the rig each cycle (:data:`SENSOR_KINDS`), adds Gaussian noise (fixed seed), rounds
 to its resolution and is ``delay_cycles`` cycles late. :func:`cycle_step` is the plant step alone, kept
@@ -37,6 +37,7 @@ from stillhook.errors import ConfigError
 from stillhook.model.rig import Rig
 from stillhook.model.sensors import SENSOR_KINDS
 from stillhook.sim.dynamics import SETTLE_WINDOW_S, SimResult, time_within_s
+from stillhook.sim.equations import numpy_rhs
 
 __all__ = ["ClosedLoopResult", "PlantState", "REST_BAND_M", "Sensor", "cycle_step",
            "run_closed_loop", "sensor_reading"]
@@ -70,25 +71,24 @@ class PlantState:
     rope_length_m: float
 
 
-def _rates(rig: Rig, C, s, a_tr, L1, L1d, alpha, F):
-    """State derivative of [th1, th2, w1, w2] (module docstring; C the damping matrix at L1)."""
-    m1, m2, L2, g = rig.hook_mass_kg, rig.payload_mass_kg, rig.rigging_length_m, rig.gravity_m_s2
-    th1, th2, w1, w2 = s
-    s1, c1 = math.sin(th1), math.cos(th1)
+def _force_rates(rig: Rig, th1: float, th2: float, L1: float, F: float) -> tuple[float, float]:
+    """theta'' added by a horizontal force F (N) on the payload: M q'' = Q, Q = F [L1 cos th1, L2 cos th2].
+
+    The equations of motion are linear in the generalized forces, so this term adds to the shared
+    right-hand side (:func:`stillhook.sim.equations.numpy_rhs`) without touching it.
+    """
+    if F == 0.0:
+        return 0.0, 0.0
+    m1, m2, L2 = rig.hook_mass_kg, rig.payload_mass_kg, rig.rigging_length_m
+    c1 = math.cos(th1)
     if rig.is_single_pendulum:
-        m = m1 + m2
-        dw1 = (-(a_tr * c1 + 2.0 * L1d * w1 + g * s1) / L1 - 2.0 * rig.damping_ratio * math.sqrt(g / L1) * w1
-               + F * c1 / (m * L1))
-        return (w1, w1, dw1, dw1)
-    s2, c2 = math.sin(th2), math.cos(th2)
-    sD, cD = math.sin(th1 - th2), math.cos(th1 - th2)
+        dw = F * c1 / ((m1 + m2) * L1)
+        return dw, dw
+    c2, cD = math.cos(th2), math.cos(th1 - th2)
     M11, M12, M22 = (m1 + m2) * L1 * L1, m2 * L1 * L2 * cD, m2 * L2 * L2
-    f1 = (-(m1 + m2) * L1 * (a_tr * c1 + 2.0 * L1d * w1 + g * s1) - m2 * L1 * L2 * w2 * w2 * sD
-          - C[0][0] * w1 - C[0][1] * w2 + F * L1 * c1)
-    f2 = (-m2 * L2 * (a_tr * c2 + alpha * sD + 2.0 * L1d * w1 * cD - L1 * w1 * w1 * sD + g * s2)
-          - C[1][0] * w1 - C[1][1] * w2 + F * L2 * c2)
+    Q1, Q2 = F * L1 * c1, F * L2 * c2
     det = M11 * M22 - M12 * M12
-    return (w1, w2, (M22 * f1 - M12 * f2) / det, (M11 * f2 - M12 * f1) / det)
+    return (M22 * Q1 - M12 * Q2) / det, (M11 * Q2 - M12 * Q1) / det
 
 
 def cycle_step(rig: Rig, state: PlantState, u_m_s: float, cycle_s: float, tau_s: float, *,
@@ -109,16 +109,17 @@ def cycle_step(rig: Rig, state: PlantState, u_m_s: float, cycle_s: float, tau_s:
     h = cycle_s / substeps
     u0, u1 = hoist_m_s
     alpha = (u1 - u0) / cycle_s
-    C = Rig(rig.hook_mass_kg, rig.payload_mass_kg, state.rope_length_m, rig.rigging_length_m,
-                      rig.gravity_m_s2, rig.damping_ratio).damping_matrix().tolist()
+    rhs = numpy_rhs(rig.is_single_pendulum)
+    consts = (rig.hook_mass_kg, rig.payload_mass_kg, rig.rigging_length_m, rig.gravity_m_s2, rig.damping_ratio)
     s = list(state.y) + [state.x_m, state.v_m_s]
     L0 = state.rope_length_m
 
     def f(t, z):
         a_tr = (u_m_s - z[5]) / tau_s
         L1 = L0 + u0 * t + 0.5 * alpha * t * t
-        r = _rates(rig, C, z[:4], a_tr, L1, u0 + alpha * t, alpha, force_n)
-        return (*r, z[5], a_tr)
+        d1, d2, dw1, dw2 = rhs(z[0], z[1], z[2], z[3], a_tr, L1, u0 + alpha * t, alpha, *consts)
+        e1, e2 = _force_rates(rig, z[0], z[1], L1, force_n)
+        return (float(d1), float(d2), float(dw1) + e1, float(dw2) + e2, z[5], a_tr)
 
     t = 0.0
     for _ in range(substeps):

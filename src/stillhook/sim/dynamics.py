@@ -24,7 +24,11 @@ A single pendulum (no payload mass or no rigging) keeps only theta1 with the tot
 theta1'' = -(x'' c1 + 2 L1' theta1' + g s1)/L1 - 2 zeta w theta1'; a massless payload hangs in line.
 
 The trolley follows the sampled speed command with linear interpolation between samples, so the
-trolley acceleration is piecewise constant over each drive cycle; likewise the hoist.
+trolley acceleration is piecewise constant over each drive cycle; likewise the hoist
+(:mod:`stillhook.sim.motion`). The equations are written once in :mod:`stillhook.sim.equations`;
+:mod:`stillhook.sim.stepping` integrates them by classical RK4 through each drive cycle, compiled
+(:mod:`stillhook.sim.kernel`) or in numpy, for one run or a batch of rigs and commands at once
+(:func:`simulate_batch`).
 
 Notes
 -----
@@ -38,18 +42,23 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.integrate import solve_ivp
 
 from stillhook.checks import finite_number
 from stillhook.errors import ConfigError
-from stillhook.model.rig import Rig
+from stillhook.model.rig import Rig, mode_frequencies_rad_s
+from stillhook.sim.motion import MIN_ROPE_LENGTH_M, Track, as_samples, command_end_index, cycles_needed
+from stillhook.sim.stepping import StepPlan, run_steps
 
-__all__ = ["SETTLE_WINDOW_S", "SimResult", "mechanical_energy_j", "simulate", "time_within_s"]
+__all__ = ["SETTLE_WINDOW_S", "SimResult", "mechanical_energy_j", "simulate", "simulate_batch", "step_rad_for",
+           "time_within_s"]
 
 #: Residual sway is measured over this many seconds after the command ends (the documented metric).
 SETTLE_WINDOW_S = 20.0
 #: Output sample spacing limit (s): fine enough to catch the peak of a 2 Hz sway within 0.2 % (1 - cos(pi 2 Hz 0.01 s)).
 _MAX_OUTPUT_STEP_S = 0.01
+#: Headroom on the highest mode frequency at the shortest rope when sizing the RK4 step (large angles
+#: and the hoist's Coriolis term raise the local frequency a little).
+_OMEGA_HEADROOM = 1.2
 
 
 @dataclass(frozen=True)
@@ -135,46 +144,212 @@ def time_within_s(t_s: np.ndarray, error_m: np.ndarray, threshold_m: float) -> f
     return float(t_s[outside[-1] + 1])
 
 
-def _as_samples(name: str, values) -> np.ndarray:
-    a = np.asarray(values, dtype=float)
-    if a.ndim != 1 or len(a) < 1:
-        raise ConfigError(f"{name} must be a 1-D sequence of samples, got shape {a.shape}")
-    if not np.all(np.isfinite(a)):
-        raise ConfigError(f"{name} contains NaN or infinite samples; allowed: finite numbers")
-    return a
+def step_rad_for(rtol: float) -> float:
+    """RK4 step w_max h (rad) for a requested relative tolerance.
+
+    RK4's local error on an oscillator is about (w h)^5 / 120 of the amplitude: w h = 0.02 gives
+    3e-11 at rtol = 1e-9, and the step scales as rtol^(1/5) from there, within [0.005, 0.05].
+    """
+    rtol = finite_number("rtol", rtol, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+    return min(0.05, max(0.005, 0.02 * (rtol / 1e-9) ** 0.2))
 
 
-class _Motion:
-    """Piecewise-linear speed samples -> piecewise-constant acceleration, position by exact integration."""
-
-    def __init__(self, speed: np.ndarray, x0: float, cycle_s: float, n: int):
-        v = np.concatenate([speed, np.zeros(max(0, n + 1 - len(speed)))])[: n + 1]
-        self.v = v
-        self.a = np.diff(v) / cycle_s  # acceleration over cycle k
-        self.x = x0 + np.concatenate([[0.0], np.cumsum(0.5 * cycle_s * (v[1:] + v[:-1]))])
-        self.Ts = cycle_s
-
-    def at(self, t: np.ndarray):
-        k = np.clip(np.floor(t / self.Ts + 1e-9).astype(int), 0, len(self.a) - 1)
-        tau = t - k * self.Ts
-        a = self.a[k]
-        return self.x[k] + self.v[k] * tau + 0.5 * a * tau**2, self.v[k] + a * tau, a
+def _as_list(name: str, values, kind) -> list:
+    if isinstance(values, kind):
+        return [values]
+    out = list(values)
+    if not out:
+        raise ConfigError(f"{name} must not be empty")
+    return out
 
 
-def _damping_table(rig: Rig, L_values: np.ndarray):
-    """Modal damping matrix C(L1) on a grid of rope lengths, for linear interpolation."""
-    if rig.damping_ratio == 0.0:
-        return None
-    lo, hi = float(L_values.min()), float(L_values.max())
-    grid = np.array([lo]) if hi - lo < 1e-9 else np.linspace(lo, hi, 33)
-    table = np.array([Rig(rig.hook_mass_kg, rig.payload_mass_kg, L, rig.rigging_length_m,
-                          rig.gravity_m_s2, rig.damping_ratio).damping_matrix() for L in grid])
-    return grid, table
+def _steps_per_cycle(par: np.ndarray, single: np.ndarray, L_min: np.ndarray, Ts: float, sub: int,
+                     step_rad: float) -> np.ndarray:
+    """RK4 steps per cycle of each run: w_max h <= step_rad, w_max the highest mode at the shortest rope."""
+    m1, m2, L2, g = par[:, 0], par[:, 1], par[:, 2], par[:, 3]
+    omega = np.sqrt(g / L_min)  # single pendulum
+    for g_value in np.unique(g[single == 0]):
+        k = (single == 0) & (g == g_value)
+        omega[k] = mode_frequencies_rad_s(m1[k], m2[k], L_min[k], L2[k], g_value)[:, 1]
+    n = np.ceil(Ts * _OMEGA_HEADROOM * omega / (step_rad * sub) - 1e-9).astype(np.int64)
+    return sub * np.maximum(1, n)
+
+
+class _Tables:
+    """Distinct drive tables of a batch, each stored once and shared between runs by offset."""
+
+    def __init__(self):
+        self.tracks, self.offsets, self.index, self.size, self.lowest = [], [], {}, 0, {}
+
+    def add(self, key, make) -> int:
+        if key not in self.index:
+            track = make()
+            self.index[key] = len(self.tracks)
+            self.tracks.append(track)
+            self.offsets.append(self.size)
+            self.size += len(track.accel_m_s2)
+        return self.index[key]
+
+
+def simulate_batch(rigs, speeds_m_s, cycle_s: float, *, rope_length_m=None, hoist_speed_m_s=None,
+                   settle_s: float = SETTLE_WINDOW_S, initial_angles_rad=(0.0, 0.0),
+                   initial_rates_rad_s=(0.0, 0.0), rtol: float = 1e-9, engine: str = "auto") -> list[SimResult]:
+    """Simulate several moves on the nonlinear model at once: rigs x commands, paired or broadcast.
+
+    Parameters
+    ----------
+    rigs : Rig or sequence of Rig
+    speeds_m_s : sequence of 1-D array_like
+        Trolley speed commands (m/s) sampled at cycle_s. With one rig and several commands (or one
+        command and several rigs) the single one is used for every run; otherwise run r simulates
+        rigs[r] under speeds_m_s[r].
+    settle_s : float > 0 or sequence of float > 0
+        As in :func:`simulate`; one for every run or one per run.
+    cycle_s, rope_length_m, hoist_speed_m_s, initial_angles_rad, initial_rates_rad_s
+        As in :func:`simulate`, shared by every run.
+    rtol : float > 0
+        Relative tolerance; sets the RK4 step (:func:`step_rad_for`).
+    engine : {"auto", "compiled", "numpy"}
+        Compiled kernel (when a C compiler works; "auto" falls back to numpy) or the numpy engine.
+
+    Returns
+    -------
+    list of SimResult
+        One per run, in order; each equals what :func:`simulate` returns for that run alone.
+    """
+    Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+    step_rad = step_rad_for(rtol)
+    rigs = _as_list("rigs", rigs, Rig)
+    cmds = [as_samples("speed_m_s", v) for v in _as_list("speeds_m_s", speeds_m_s, np.ndarray)]
+    if len(rigs) != len(cmds) and 1 not in (len(rigs), len(cmds)):
+        raise ConfigError(f"{len(rigs)} rigs and {len(cmds)} commands: give one of either or as many of both")
+    n_runs = max(len(rigs), len(cmds))
+    if np.ndim(settle_s) == 1 and len(settle_s) not in (1, n_runs):
+        raise ConfigError(f"settle_s has {len(settle_s)} values for {n_runs} runs; allowed: one, or one per run")
+    settles = [finite_number("settle_s", v, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+               for v in np.broadcast_to(np.asarray(settle_s, dtype=object), (n_runs,))]
+    hoist = _hoist_input(rope_length_m, hoist_speed_m_s, Ts)
+    th0 = [float(v) for v in initial_angles_rad]
+    w0 = [float(v) for v in initial_rates_rad_s]
+    sub = max(1, math.ceil(Ts / _MAX_OUTPUT_STEP_S - 1e-9))
+    ends = [command_end_index(c) for c in cmds]
+    runs = [_setup_run(rigs[r % len(rigs)], r % len(cmds), cmds[r % len(cmds)], ends[r % len(cmds)], hoist, Ts,
+                       settles[r], sub) for r in range(n_runs)]
+    return _integrate(runs, hoist, Ts, sub, step_rad, th0, w0, engine)
+
+
+def _hoist_input(rope_length_m, hoist_speed_m_s, Ts: float):
+    """("lengths", L samples) | ("speed", u samples) | ("still", None), checked."""
+    if rope_length_m is not None and hoist_speed_m_s is not None:
+        raise ConfigError("give rope_length_m or hoist_speed_m_s, not both")
+    if rope_length_m is not None:
+        L_s = as_samples("rope_length_m", rope_length_m)
+        if np.any(L_s <= 0):
+            raise ConfigError("rope_length_m samples must all be > 0")
+        return "lengths", L_s, command_end_index(np.concatenate([np.diff(L_s), [0.0]]))
+    if hoist_speed_m_s is not None:
+        u = as_samples("hoist_speed_m_s", hoist_speed_m_s)
+        return "speed", u, command_end_index(u)
+    return "still", None, 0
+
+
+def _setup_run(rig: Rig, cmd_index: int, cmd: np.ndarray, cmd_end: int, hoist, Ts: float, settle_s: float,
+               sub: int) -> dict:
+    kind, samples, hoist_end = hoist
+    if kind == "lengths" and abs(samples[0] - rig.rope_length_m) > 1e-9:
+        rig = Rig(rig.hook_mass_kg, rig.payload_mass_kg, float(samples[0]), rig.rigging_length_m,
+                  rig.gravity_m_s2, rig.damping_ratio)
+    command_end_s = max(cmd_end, hoist_end) * Ts
+    t_final = command_end_s + settle_s
+    dt_out = Ts / sub
+    return {"rig": rig, "cmd_index": cmd_index, "cmd": cmd, "n": cycles_needed(t_final, Ts),
+            "n_out": math.floor(t_final / dt_out + 1e-9) + 1, "command_end_s": command_end_s, "settle_s": settle_s}
+
+
+def _hoist_track(hoist, Ts: float, n: int) -> Track:
+    """Rope length change from its start (m): one table per command, shared by every rig's start length."""
+    kind, samples, _ = hoist
+    if kind == "lengths":
+        return Track.from_positions(samples - samples[0], Ts, n)
+    if kind == "speed":
+        return Track.from_speed(samples, 0.0, Ts, n)
+    return Track.still(0.0, Ts, n)
+
+
+def _integrate(runs, hoist, Ts, sub, step_rad, th0, w0, engine) -> list[SimResult]:
+    trolley, rope = _Tables(), _Tables()
+    tr_i, ho_i, L_min = [], [], []
+    for run in runs:
+        rig, n = run["rig"], run["n"]
+        tr_i.append(trolley.add((run["cmd_index"], n), lambda run=run: Track.from_speed(run["cmd"], 0.0, Ts, run["n"])))
+        ho_i.append(rope.add(n, lambda n=n: _hoist_track(hoist, Ts, n)))
+        if ho_i[-1] not in rope.lowest:
+            rope.lowest[ho_i[-1]] = rope.tracks[ho_i[-1]].min_m()
+        L_min.append(rig.rope_length_m + rope.lowest[ho_i[-1]])
+        if L_min[-1] <= MIN_ROPE_LENGTH_M:
+            raise ConfigError(f"the hoist command shortens the rope to <= {MIN_ROPE_LENGTH_M} m; "
+                              f"allowed: L1 > {MIN_ROPE_LENGTH_M} m throughout")
+    rigs = [run["rig"] for run in runs]
+    single = np.array([rig.is_single_pendulum for rig in rigs], dtype=np.int64)
+    par = np.array([[r.hook_mass_kg, r.payload_mass_kg, r.rigging_length_m, r.gravity_m_s2, r.damping_ratio]
+                    for r in rigs])
+    y0 = np.array([[th0[0], th0[0] if s else th0[1], w0[0], w0[0] if s else w0[1]] for s in single])
+    tr_tracks = [trolley.tracks[i] for i in tr_i]
+    ho_tracks = [rope.tracks[i] for i in ho_i]
+    plan = StepPlan(
+        cycle_s=Ts, sub=sub,
+        par=par, single=single, n_rk=_steps_per_cycle(par, single, np.array(L_min), Ts, sub, step_rad),
+        n_out=np.array([run["n_out"] for run in runs], dtype=np.int64),
+        tr_a=np.concatenate([t.accel_m_s2 for t in trolley.tracks]),
+        tr_off=np.array([trolley.offsets[i] for i in tr_i], dtype=np.int64),
+        tr_n=np.array([len(t.accel_m_s2) for t in tr_tracks], dtype=np.int64),
+        ho_L0=np.array([r.rope_length_m for r in rigs]),
+        ho_L=np.concatenate([t.start_m[:-1] for t in rope.tracks]),
+        ho_v=np.concatenate([t.speed_m_s[:-1] for t in rope.tracks]),
+        ho_a=np.concatenate([t.accel_m_s2 for t in rope.tracks]),
+        ho_off=np.array([rope.offsets[i] for i in ho_i], dtype=np.int64),
+        ho_n=np.array([len(t.accel_m_s2) for t in ho_tracks], dtype=np.int64),
+        y0=y0)
+    Y, _ = run_steps(plan, engine)
+    shared: dict = {}
+    out = []
+    for r, run in enumerate(runs):
+        row = int(plan.out_off[r])
+        out.append(_result(run, Y[row:row + run["n_out"]], (tr_i[r], tr_tracks[r]), (ho_i[r], ho_tracks[r]),
+                           Ts / sub, shared))
+    return out
+
+
+def _read_only(*arrays):
+    for a in arrays:
+        a.flags.writeable = False
+    return arrays
+
+
+def _result(run: dict, Y: np.ndarray, trolley, rope, dt_out: float, shared: dict) -> SimResult:
+    """SimResult of one run; time, trolley and rope-change series are shared (read-only) between runs."""
+    rig, n_out = run["rig"], run["n_out"]
+    if ("t", n_out) not in shared:
+        shared["t", n_out] = _read_only(np.arange(n_out) * dt_out)[0]
+    t_out = shared["t", n_out]
+    if ("trolley", trolley[0], n_out) not in shared:
+        shared["trolley", trolley[0], n_out] = _read_only(*trolley[1].at(t_out))
+    if ("rope", rope[0], n_out) not in shared:
+        shared["rope", rope[0], n_out] = _read_only(*rope[1].at(t_out))
+    x_t, v_t = shared["trolley", trolley[0], n_out]
+    dL_t, u_t = shared["rope", rope[0], n_out]
+    L_t = rig.rope_length_m + dL_t
+    th1, th2 = Y[:, 0], Y[:, 1]
+    hook = L_t * np.sin(th1)
+    L2, single = rig.rigging_length_m, rig.is_single_pendulum
+    payload = hook + (L2 * np.sin(th2) if (not single or rig.payload_mass_kg == 0.0) else 0.0)
+    return SimResult(t_out, th1, th2, Y[:, 2].copy(), Y[:, 3].copy(), hook, payload, x_t, v_t, L_t, u_t,
+                     run["command_end_s"], run["settle_s"])
 
 
 def simulate(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=None, hoist_speed_m_s=None,
              settle_s: float = SETTLE_WINDOW_S, initial_angles_rad=(0.0, 0.0),
-             initial_rates_rad_s=(0.0, 0.0), rtol: float = 1e-9) -> SimResult:
+             initial_rates_rad_s=(0.0, 0.0), rtol: float = 1e-9, engine: str = "auto") -> SimResult:
     """Simulate a move on the nonlinear model.
 
     Parameters
@@ -195,171 +370,18 @@ def simulate(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=None, hoist_s
         Window after the command ends over which residual sway is measured.
     initial_angles_rad, initial_rates_rad_s : pair of float
         Initial theta1, theta2 and rates (for free-swing studies).
-    rtol : float
-        Integrator relative tolerance (DOP853).
+    rtol : float > 0
+        Relative tolerance; sets the RK4 step (:func:`step_rad_for`: w_max h = 0.02 at 1e-9).
+    engine : {"auto", "compiled", "numpy"}
+        See :func:`simulate_batch`.
 
     Returns
     -------
     SimResult
     """
-    Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
-    settle_s = finite_number("settle_s", settle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
-    v_cmd = _as_samples("speed_m_s", speed_m_s)
-    if rope_length_m is not None and hoist_speed_m_s is not None:
-        raise ConfigError("give rope_length_m or hoist_speed_m_s, not both")
-    if rope_length_m is not None:
-        L_s = _as_samples("rope_length_m", rope_length_m)
-        if np.any(L_s <= 0):
-            raise ConfigError("rope_length_m samples must all be > 0")
-        if abs(L_s[0] - rig.rope_length_m) > 1e-9:
-            rig = Rig(rig.hook_mass_kg, rig.payload_mass_kg, float(L_s[0]), rig.rigging_length_m,
-                      rig.gravity_m_s2, rig.damping_ratio)
-        u_cmd = np.concatenate([np.diff(L_s) / Ts, [0.0]])
-        hoist_stepwise = True
-    else:
-        u_cmd = np.zeros(1) if hoist_speed_m_s is None else _as_samples("hoist_speed_m_s", hoist_speed_m_s)
-        hoist_stepwise = False
-
-    def last_active(a: np.ndarray) -> int:
-        nz = np.nonzero(np.abs(a) > 0.0)[0]
-        return 0 if len(nz) == 0 else int(nz[-1]) + 1
-
-    n_end = max(last_active(v_cmd), last_active(u_cmd))
-    command_end_s = n_end * Ts
-    t_final = command_end_s + settle_s
-    n_cycles = math.ceil(t_final / Ts - 1e-9) + 1
-    trolley = _Motion(v_cmd, 0.0, Ts, n_cycles)
-    if hoist_stepwise:
-        u = np.concatenate([u_cmd, np.zeros(max(0, n_cycles + 1 - len(u_cmd)))])[: n_cycles + 1]
-        hoist_L = rig.rope_length_m + np.concatenate([[0.0], np.cumsum(Ts * u[:-1])])
-
-        def hoist_at(t):
-            k = np.clip(np.floor(t / Ts + 1e-9).astype(int), 0, n_cycles)
-            return hoist_L[k] + u[k] * (t - k * Ts), u[k], np.zeros_like(t)
-    else:
-        hoist = _Motion(u_cmd, rig.rope_length_m, Ts, n_cycles)
-        hoist_at = hoist.at
-        hoist_L = hoist.x
-        u = hoist.v
-    if np.any(hoist_L <= 0.05):
-        raise ConfigError("the hoist command shortens the rope to <= 0.05 m; allowed: L1 > 0.05 m throughout")
-
-    m1, m2, L2, g = rig.hook_mass_kg, rig.payload_mass_kg, rig.rigging_length_m, rig.gravity_m_s2
-    single = rig.is_single_pendulum
-    zeta = rig.damping_ratio
-    ctab = None if single else _damping_table(rig, hoist_L)
-    # Per-cycle constants: trolley acceleration a[k], hoist L1[k], L1'[k], L1''[k].
-    a_tr = trolley.a[:n_cycles]
-    u_k = u[:n_cycles]
-    L_k = hoist_L[:n_cycles]
-    al_k = np.zeros(n_cycles) if hoist_stepwise else np.diff(u)[:n_cycles] / Ts
-
-    def rhs(t, y, k_lo, k_hi):
-        # inside segment cycles [k_lo, k_hi): accelerations are constant over each cycle k
-        k = min(max(int(t / Ts), k_lo), k_hi - 1)
-        tau = t - k * Ts
-        a, alpha = a_tr[k], al_k[k]
-        L1 = L_k[k] + u_k[k] * tau + 0.5 * alpha * tau * tau
-        L1d = u_k[k] + alpha * tau
-        th1, w1 = y[0], y[2]
-        s1, c1 = math.sin(th1), math.cos(th1)
-        if single:
-            dw1 = -(a * c1 + 2.0 * L1d * w1 + g * s1) / L1 - 2.0 * zeta * math.sqrt(g / L1) * w1
-            return [w1, w1, dw1, dw1]
-        th2, w2 = y[1], y[3]
-        s2, c2 = math.sin(th2), math.cos(th2)
-        sD, cD = math.sin(th1 - th2), math.cos(th1 - th2)
-        M11 = (m1 + m2) * L1 * L1
-        M12 = m2 * L1 * L2 * cD
-        M22 = m2 * L2 * L2
-        f1 = -(m1 + m2) * L1 * (a * c1 + 2.0 * L1d * w1 + g * s1) - m2 * L1 * L2 * w2 * w2 * sD
-        f2 = -m2 * L2 * (a * c2 + alpha * sD + 2.0 * L1d * w1 * cD - L1 * w1 * w1 * sD + g * s2)
-        if ctab is not None:
-            grid, table = ctab
-            if len(grid) == 1:
-                C = table[0]
-            else:
-                j = min(max(int(np.searchsorted(grid, L1)) - 1, 0), len(grid) - 2)
-                f = (L1 - grid[j]) / (grid[j + 1] - grid[j])
-                C = table[j] + f * (table[j + 1] - table[j])
-            f1 -= C[0, 0] * w1 + C[0, 1] * w2
-            f2 -= C[1, 0] * w1 + C[1, 1] * w2
-        det = M11 * M22 - M12 * M12
-        return [w1, w2, (M22 * f1 - M12 * f2) / det, (M11 * f2 - M12 * f1) / det]
-
-    # Output grid: the drive cycle, subdivided to <= 10 ms.
-    sub = max(1, math.ceil(Ts / _MAX_OUTPUT_STEP_S - 1e-9))
-    dt_out = Ts / sub
-    n_out = math.floor(t_final / dt_out + 1e-9) + 1
-    t_out = np.arange(n_out) * dt_out
-
-    # Segments: where both accelerations hold constant for many cycles (ramps, plateaus, rest)
-    # an adaptive DOP853 run covers the whole stretch; where they change every cycle (S-curves,
-    # shaped or filtered commands) a classical RK4 steps through each cycle, whose acceleration
-    # is constant, with omega_max h <= 0.02 (local error ~ (omega h)^5 / 120 < 3e-11).
-    change = (np.diff(a_tr) != 0.0) | (np.diff(al_k) != 0.0)
-    if hoist_stepwise:
-        change |= np.diff(u_k) != 0.0
-    bounds = np.concatenate([[0], np.nonzero(change)[0] + 1, [n_cycles]])
-    L_min = float(np.min(hoist_L))
-    omega_max = 1.2 * Rig(m1, m2, L_min, L2, g, 0.0).modes()[-1].omega_rad_s
-    n_rk = sub * max(1, math.ceil(Ts * omega_max / (0.02 * sub)))
-
-    th0 = [float(v) for v in initial_angles_rad]
-    w0 = [float(v) for v in initial_rates_rad_s]
-    if single:
-        th0[1], w0[1] = th0[0], w0[0]
-    y = np.array([th0[0], th0[1], w0[0], w0[1]])
-    Y = np.empty((n_out, 4))
-    out_index = 0
-
-    def rk4_cycle(y, k):
-        nonlocal out_index
-        h = Ts / n_rk
-        t = k * Ts
-        for i in range(n_rk):
-            if i % (n_rk // sub) == 0 and out_index < n_out and abs(t_out[out_index] - t) < 1e-9:
-                Y[out_index] = y
-                out_index += 1
-            k1 = rhs(t, y, k, k + 1)
-            k2 = rhs(t + 0.5 * h, [y[j] + 0.5 * h * k1[j] for j in range(4)], k, k + 1)
-            k3 = rhs(t + 0.5 * h, [y[j] + 0.5 * h * k2[j] for j in range(4)], k, k + 1)
-            k4 = rhs(t + h, [y[j] + h * k3[j] for j in range(4)], k, k + 1)
-            y = [y[j] + h / 6.0 * (k1[j] + 2.0 * k2[j] + 2.0 * k3[j] + k4[j]) for j in range(4)]
-            t += h
-        return y
-
-    for b0, b1 in zip(bounds[:-1], bounds[1:], strict=True):
-        t0, t1 = b0 * Ts, min(b1 * Ts, t_final)
-        if t1 <= t0:
-            continue
-        if b1 - b0 < 8 and b1 * Ts <= t_final + 1e-12:
-            for k in range(int(b0), int(b1)):
-                y = rk4_cycle(y, k)
-            continue
-        mask = (t_out >= t0 - 1e-12) & (t_out < t1 - 1e-12)
-        if b1 >= n_cycles:
-            mask |= np.abs(t_out - t1) <= 1e-12
-        t_eval = np.clip(np.concatenate([t_out[mask], [t1]]), t0, t1)
-        t_eval = t_eval[np.concatenate([np.diff(t_eval) > 0, [True]])]
-        sol = solve_ivp(rhs, (t0, t1), y, method="DOP853", rtol=rtol, atol=1e-12,
-                        t_eval=t_eval, args=(int(b0), int(b1)))
-        if not sol.success:  # pragma: no cover - integrator failure is a bug, not user input
-            raise RuntimeError(f"integration failed at t = {t0:.3f} s: {sol.message}")
-        n_mask = int(mask.sum())
-        Y[mask] = sol.y[:, :n_mask].T
-        out_index = int(np.nonzero(mask)[0][-1]) + 1 if n_mask else out_index
-        y = sol.y[:, -1]
-    if n_out - out_index > 1:  # pragma: no cover - bookkeeping bug, not user input
-        raise RuntimeError(f"simulation filled {out_index} of {n_out} output samples")
-    if out_index < n_out:  # the final sample when the last stretch was stepped by RK4
-        Y[out_index] = y
-    x_t, v_t, _ = trolley.at(t_out)
-    L_t, u_t, _ = hoist_at(t_out)
-    th1, th2 = Y[:, 0], Y[:, 1]
-    hook = L_t * np.sin(th1)
-    payload = hook + (L2 * np.sin(th2) if (not single or m2 == 0.0) else 0.0)
-    return SimResult(t_out, th1, th2, Y[:, 2], Y[:, 3], hook, payload, x_t, v_t, L_t, u_t, command_end_s, settle_s)
+    return simulate_batch(rig, [as_samples("speed_m_s", speed_m_s)], cycle_s, rope_length_m=rope_length_m,
+                          hoist_speed_m_s=hoist_speed_m_s, settle_s=settle_s, initial_angles_rad=initial_angles_rad,
+                          initial_rates_rad_s=initial_rates_rad_s, rtol=rtol, engine=engine)[0]
 
 
 def mechanical_energy_j(rig: Rig, result: SimResult) -> np.ndarray:

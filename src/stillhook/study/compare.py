@@ -57,7 +57,7 @@ from stillhook.shaping.band_design import band_shaper
 from stillhook.shaping.cycle_grid import to_cycle_grid
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.sim.command_filter import UNFILTERED, CommandFilter
-from stillhook.sim.dynamics import simulate, time_within_s
+from stillhook.sim.dynamics import simulate_batch, time_within_s
 from stillhook.sim.profiles import project_move
 
 __all__ = [
@@ -245,10 +245,9 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
     distance = float(T * np.sum(speed))
     cands, notes = candidates(project)
     cands = [c for c in cands if c.method == "unshaped" or c.method in methods]
-    runs = []
-    for c in cands:
-        y, duration, centroid = _command(c, speed, T)
-        runs.append((c, y, duration, centroid, simulate(rig, y, T, hoist_speed_m_s=hoist, rtol=rtol)))
+    commands = [(c, *_command(c, speed, T)) for c in cands]
+    results = simulate_batch(rig, [y for _, y, _, _ in commands], T, hoist_speed_m_s=hoist, rtol=rtol)
+    runs = [(*cmd, res) for cmd, res in zip(commands, results, strict=True)]
     base = runs[0][4]
     unshaped_end = base.command_end_s
     threshold = tol * base.residual_payload_sway_m

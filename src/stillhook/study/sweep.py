@@ -5,7 +5,8 @@ length) every rig of a grid, or of random samples of the envelope, is run with e
 command: unshaped, the project's one-for-the-envelope shaper, the length-scheduled shaper (each rig
 gets the row the firmware picks for its rope length) and the notch cascade. The residual sway is
 computed exactly on the linear model for all rigs at once (:mod:`stillhook.study.modal_sweep`); a few
-rigs (the envelope's corners) are re-run on the nonlinear simulator (:func:`stillhook.sim.dynamics.simulate`)
+rigs (the envelope's corners) are re-run on the nonlinear simulator, all in one batch
+(:func:`stillhook.sim.dynamics.simulate_batch`)
 and the disagreement is reported with the results.
 
 Within the tolerance means: residual sway with the design <= tolerance x unshaped residual sway at
@@ -20,21 +21,24 @@ described in :mod:`stillhook.study.modal_sweep`.
 
 from __future__ import annotations
 
+import contextlib
 import math
+import os
 from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor
 
 import numpy as np
 
 from stillhook.errors import ConfigError
 from stillhook.notch.design import notch_for_project
 from stillhook.shaping.envelope_design import design_for_project
-from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate
+from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate_batch
 from stillhook.sim.profiles import trapezoid
 from stillhook.study.modal_sweep import AccelRuns, ModalBatch, end_amplitudes, peak_after_end
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
 
-__all__ = ["DESIGN_KEYS", "SpotCheck", "SweepDesign", "SweepResult", "project_designs", "residuals",
-           "spot_checks", "sweep_project"]
+__all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "SpotCheck", "SweepDesign", "SweepResult", "project_designs",
+           "residuals", "spot_checks", "sweep_project", "worker_count"]
 
 #: Designs the sweep knows, in output order.
 DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
@@ -42,8 +46,10 @@ DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
 DEFAULT_GRID = (21, 21)
 #: Default travel distance of the sweep's move (m).
 DEFAULT_DISTANCE_M = 6.0
-#: Largest number of rigs one sweep accepts.
-MAX_RIGS = 200_000
+#: Largest number of rigs one sweep accepts (memory: ~50 bytes per rig and design for points and results).
+MAX_RIGS = 1_000_000
+#: Rigs per chunk: the sweep's working memory is bounded by this (~100 MB at most for a notch command).
+CHUNK_RIGS = 4096
 
 
 # -- designs -------------------------------------------------------------------------------------
@@ -130,31 +136,58 @@ def _check_count(what: str, n: int) -> None:
 
 
 # -- the sweep -----------------------------------------------------------------------------------
-def residuals(batch: ModalBatch, designs, cycle_s: float, *, settle_s: float = SETTLE_WINDOW_S,
-              progress: Callable[[int, int], None] | None = None) -> dict:
-    """Residual payload sway (m) of every rig of ``batch`` under every design: {key: ndarray (R,)}."""
+def worker_count(n_chunks: int) -> int:
+    """Processes for n_chunks chunks of rigs: one per available core, never more than chunks."""
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except AttributeError:  # pragma: no cover - not on Linux
+        cores = os.cpu_count() or 1
+    return max(1, min(cores, n_chunks))
+
+
+def _chunk_residuals(batch: ModalBatch, runs, settle_s: float, rows) -> np.ndarray:
+    """Residual sway (designs, r) of one chunk of rigs; runs[i][row] are design i's AccelRuns."""
     R = batch.size
-    Y = np.zeros((len(designs), R, 2), dtype=complex)
-    for i, d in enumerate(designs):
-        rows = d.rows_for(batch.rope_length_m)
-        for r, cmd in enumerate(d.commands):
-            idx = np.nonzero(rows == r)[0]
+    Y = np.zeros((len(runs), R, 2), dtype=complex)
+    for i, (design_runs, design_rows) in enumerate(zip(runs, rows, strict=True)):
+        for r, acc in enumerate(design_runs):
+            idx = np.nonzero(design_rows == r)[0]
             if idx.size:
-                Y[i, idx] = end_amplitudes(batch.take(idx), AccelRuns.from_speed(cmd, cycle_s))
-    peaks = np.empty((len(designs), R))
-    step = 1024
-    for b0 in range(0, R, step):
-        sl = slice(b0, min(b0 + step, R))
-        peaks[:, sl] = peak_after_end(batch.take(np.arange(sl.start, sl.stop)), Y[:, sl], settle_s)
-        if progress is not None:
-            progress(sl.stop, R)
-    return {d.key: peaks[i] for i, d in enumerate(designs)}
+                Y[i, idx] = end_amplitudes(batch.take(idx), acc)
+    return peak_after_end(batch, Y, settle_s)
 
 
-#: Designs not re-run on the nonlinear simulator: the notch output changes every cycle for its whole
-#: ring-out, which makes a solve_ivp run take tens of seconds (the linear model's error does not
-#: depend on the command's shape; it is second order in the sway amplitude).
-UNCHECKED_KEYS = ("notch",)
+def residuals(batch: ModalBatch, designs, cycle_s: float, *, settle_s: float = SETTLE_WINDOW_S,
+              progress: Callable[[int, int], None] | None = None, workers: int | None = None) -> dict:
+    """Residual payload sway (m) of every rig of ``batch`` under every design: {key: ndarray (R,)}.
+
+    The rigs are taken CHUNK_RIGS at a time, so the working memory does not grow with the rig count
+    (only the results, 8 bytes per rig and design); chunks run in ``workers`` processes (default one
+    per available core when there are several chunks). Results do not depend on the worker count.
+    """
+    R = batch.size
+    runs = [[AccelRuns.from_speed(cmd, cycle_s) for cmd in d.commands] for d in designs]
+    rows = [d.rows_for(batch.rope_length_m) for d in designs]
+    chunks = [slice(b, min(b + CHUNK_RIGS, R)) for b in range(0, R, CHUNK_RIGS)]
+    n_workers = worker_count(len(chunks)) if workers is None else max(1, min(int(workers), len(chunks)))
+    args = ((batch.take(sl), runs, settle_s, [r[sl] for r in rows]) for sl in chunks)
+    out = np.empty((len(designs), R))
+    with contextlib.ExitStack() as stack:
+        if n_workers > 1:
+            pool = stack.enter_context(ProcessPoolExecutor(n_workers))
+            parts = pool.map(_chunk_residuals, *zip(*args, strict=True))
+        else:
+            parts = (_chunk_residuals(*a) for a in args)
+        for sl, part in zip(chunks, parts, strict=True):
+            out[:, sl] = part
+            if progress is not None:
+                progress(sl.stop, R)
+    return {d.key: out[i] for i, d in enumerate(designs)}
+
+
+#: Designs not re-run on the nonlinear simulator: none since the batch engine runs a notch's long
+#: ring-out in milliseconds.
+UNCHECKED_KEYS = ()
 
 
 def spot_checks(project, designs, points, cycle_s: float) -> list[SpotCheck]:
@@ -164,15 +197,14 @@ def spot_checks(project, designs, points, cycle_s: float) -> list[SpotCheck]:
     L = np.array([p[0] for p in points])
     m = np.array([p[1] for p in points])
     lin = residuals(ModalBatch.from_envelope(env, L, m), designs, cycle_s)
+    runs = [(n, d) for n in range(len(points)) for d in designs]
+    sims = simulate_batch([env.rig(L[n], m[n]) for n, _ in runs],
+                          [d.commands[int(d.rows_for(L[n]))] for n, d in runs], cycle_s)
     out = []
     for n, (Ln, mn) in enumerate(points):
-        rig = env.rig(Ln, mn)
-        nonlin, peak = {}, 0.0
-        for d in designs:
-            sim = simulate(rig, d.commands[int(d.rows_for(Ln))], cycle_s)
-            nonlin[d.key] = sim.residual_payload_sway_m
-            if d.key == "unshaped":
-                peak = sim.peak_payload_offset_m
+        mine = [(d, sim) for (i, d), sim in zip(runs, sims, strict=True) if i == n]
+        nonlin = {d.key: sim.residual_payload_sway_m for d, sim in mine}
+        peak = next((sim.peak_payload_offset_m for d, sim in mine if d.key == "unshaped"), 0.0)
         out.append(SpotCheck(float(Ln), float(mn), {d.key: float(lin[d.key][n]) for d in designs}, nonlin, peak))
     return out
 
