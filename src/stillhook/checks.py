@@ -154,11 +154,24 @@ LIMITS.update({
     "mode": Limit("", 1.0, 2.0, reason="mode number: 1 the low mode, 2 the high mode"),
     "measured_hz": Limit("Hz", 0.0, 1000.0, lo_ok=False, reason="an identified sway frequency"),
     "measured_sd_hz": Limit("Hz", 0.0, 1000.0, reason="standard deviation of an identified frequency"),
+    # feedback controller: the drive's speed loop, the sway sensor, the closed-loop design
+    "speed_loop_time_constant_s": Limit("s", 0.0, 5.0, lo_ok=False, reason="the drive's closed speed loop as a "
+                                        "first-order lag"),
+    "noise_sd": Limit("sensor unit", 0.0, 10.0, reason="standard deviation of the sensor noise"),
+    "resolution": Limit("sensor unit", 0.0, 1.0, reason="the sensor's quantization step"),
+    "delay_cycles": Limit("cycles", 0, 50, integer=True, reason="sensor delay in whole drive cycles"),
+    "max_abs": Limit("sensor unit", 0.0, None, lo_ok=False, reason="a reading beyond it is a sensor fault"),
+    "max_jump": Limit("sensor unit", 0.0, None, lo_ok=False, reason="a change per cycle beyond it is a sensor fault"),
+    "stale_cycles": Limit("cycles", 1, 1000, integer=True, reason="cycles without a new sample before the fault"),
+    "target_damping_ratio": Limit("", 0.0, 0.7, lo_ok=False, reason="closed-loop damping of every pole pair"),
+    "min_damping_ratio": Limit("", 0.0, 0.7, reason="least closed-loop damping accepted on the envelope"),
+    "rows": Limit("rows", 1, 64, integer=True, reason="rope-length rows of the gain schedule"),
 })
 for _alias, _quantity in (("nominal_rope_length_m", "rope_length_m"), ("nominal_payload_mass_kg", "payload_mass_kg"),
                           ("hoist_to_m", "rope_length_m"), ("nominal_hook_mass_kg", "hook_mass_kg"),
                           ("nominal_rigging_length_m", "rigging_length_m"), ("nominal_rope_offset_m", "rope_offset_m"),
-                          ("nominal_damping_ratio", "damping_ratio")):
+                          ("nominal_damping_ratio", "damping_ratio"),
+                          ("design_payload_mass_kg", "payload_mass_kg")):
     LIMITS[_alias] = LIMITS[_quantity]
 
 #: Drive cycles of one move command at most: 400 000 is 2000 s at a 5 ms cycle, about 15 s of nonlinear

@@ -20,7 +20,7 @@ def test_every_help_ends_with_examples_and_offers_json(name, capsys):
 
 def test_quantity_options_carry_units():
     # every float option is named with its unit, like the project keys (the rule); counts are plain
-    units = ("-kg", "-m", "-hz", "-s", "-pct", "-db", "-ratio", "-m-s2")
+    units = ("-kg", "-m", "-hz", "-s", "-pct", "-db", "-ratio", "-m-s2", "-rad", "-n")
     parser = build_parser()
     sub = next(a for a in parser._actions if a.dest == "command")
     for name, p in sub.choices.items():
