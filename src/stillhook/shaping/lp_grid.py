@@ -31,7 +31,7 @@ import math
 
 import numpy as np
 
-from stillhook.shaping.lp_solve import solve_lp
+from stillhook.shaping.lp_solve import CutLP
 from stillhook.shaping.shaper import Shaper, worst_vibration
 
 __all__ = ["MAX_BASIS_ENTRIES", "ProblemTooLarge", "optimize_on_grid"]
@@ -123,20 +123,16 @@ def _minimax(prob: _Bands, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.
         raise ProblemTooLarge(n, wc.size)
     Ec = prob.basis(wc, tau)
     prob.seed_cuts(float(tau[-1]))
-    c = np.zeros(n + 1)
-    c[-1] = 1.0
-    A_eq = np.concatenate([np.ones(n), [0.0]])[None, :]
-    rows = np.empty((0, n))
+    lp, done = CutLP(n), 0
     for round_ in range(_MAX_CUT_ROUNDS):
-        if len(prob.cuts_w) > rows.shape[0]:
-            w, phi = np.array(prob.cuts_w[rows.shape[0]:]), np.array(prob.cuts_phi[rows.shape[0]:])
-            rows = np.vstack([rows, np.real(np.exp(-1j * phi)[:, None] * prob.basis(w, tau))])
-        A_ub = np.hstack([rows, -np.ones((rows.shape[0], 1))])
-        res = solve_lp(c, A_ub=A_ub, b_ub=np.zeros(rows.shape[0]), A_eq=A_eq, b_eq=[1.0],
-                       bounds=[(0.0, None)] * (n + 1), method="highs-ds", options={"presolve": False})
+        if len(prob.cuts_w) > done:
+            w, phi = np.array(prob.cuts_w[done:]), np.array(prob.cuts_phi[done:])
+            lp.add_cuts(np.real(np.exp(-1j * phi)[:, None] * prob.basis(w, tau)))
+            done = len(prob.cuts_w)
+        res = lp.solve()
         if res.status != 0:
             return None
-        x, s = res.x[:n], res.x[-1]
+        x, s = res.x, res.s
         if s > prob.tol * (1.0 + 1e-9):
             return None  # even the relaxation exceeds the tolerance
         if round_ >= _MARGINAL_ROUNDS and s > prob.tol * (1.0 - _MARGINAL):
