@@ -2,12 +2,12 @@
 
 HiGHS dual simplex (scipy's ``linprog``; the public ``highspy`` for the cutting-plane LPs of
 :mod:`stillhook.shaping.lp_grid`) solves them in fewer iterations than rows + columns. On large, highly
-degenerate LPs (optimum near 0, many nearly parallel cuts) it can stall for many minutes; HiGHS interior point
-solves the same LP in seconds. So each LP first runs its own method with an iteration cap proportional to its
-size (:data:`ITERATIONS_PER_SIZE` x (rows + columns), deterministic: the same LP takes the same path on every
-machine), and an LP that reaches the cap is solved again by interior point. Both attempts also carry a wall-
-clock limit (:data:`TIME_LIMIT_S`) as a last guard; an LP that runs out of it counts as not solved (status !=
-0), which the callers treat as "no shaper on this grid" - conservative: a
+degenerate LPs (optimum near 0, many nearly parallel cuts) it can stall for many minutes; HiGHS interior
+point solves the same LP in seconds. So each LP first runs its own method with an iteration cap
+proportional to its size (:data:`ITERATIONS_PER_SIZE` x (rows + columns), deterministic: the same LP takes
+the same path on every machine), and an LP that reaches the cap is solved again by interior point. Both
+attempts also carry a wall-clock limit (:data:`TIME_LIMIT_S`) as a last guard; an LP that runs out of it
+counts as not solved (status != 0), which the callers treat as "no shaper on this grid" - conservative: a
 longer shaper, never an unchecked one.
 
 :class:`CutLP` holds one cutting-plane LP in a HiGHS instance (``highspy``) so that each round adds
