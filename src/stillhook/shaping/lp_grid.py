@@ -6,8 +6,8 @@ shortest impulse sequence with A_i >= 0, sum A_i = 1 and V(w) <= Vtol for every 
 With the impulse times fixed on a grid tau_j = j h (j = 0..N), V(w) = |sum_j x_j e_j(w)| with
 e_j(w) = exp(-zeta w (tau_N - tau_j)) exp(j w_d tau_j), so "V <= s" is convex in the amplitudes x
 and equals the family of half-planes Re(exp(-j phi) sum_j x_j e_j(w)) <= s over all phases phi.
-A linear program (HiGHS dual simplex, with a bounded effort and an interior-point retry:
-:func:`stillhook.shaping.lp_solve.solve_lp`) minimizes s subject to a growing set
+A linear program (HiGHS dual simplex warm-started as cuts arrive, with a bounded effort and an interior-point retry:
+:class:`stillhook.shaping.lp_solve.CutLP`) minimizes s subject to a growing set
 of such cuts (w, phi): after each solve V is evaluated on a dense frequency grid, its maxima are
 refined, and every maximum near or above Vtol adds the cut tangent at its own phase (Kelley's
 cutting-plane method). The LP's s is a lower bound on the true minimax, so "s > Vtol" proves the
