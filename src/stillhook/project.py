@@ -30,6 +30,7 @@ from typing import Any
 
 from stillhook.errors import ConfigError, InputFileError, StillhookError
 from stillhook.model.envelope import Envelope
+from stillhook.model.sensors import SENSOR_KINDS
 
 DEMO_PROJECT_NAME = "demo_project.toml"
 
@@ -89,6 +90,9 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "max_jerk_m_s3": Key("number", default=None, minimum=0.0, min_inclusive=False),
         "hoist_speed_m_s": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=5.0),
         "hoist_accel_m_s2": Key("number", default=0.2, minimum=0.0, min_inclusive=False, maximum=10.0),
+        # the drive's closed speed loop as a first-order lag (s); 0.05 s is common practice for trolley
+        # inverter drives (no source): used by the feedback design and the closed-loop simulation
+        "speed_loop_time_constant_s": Key("number", default=0.05, minimum=0.0, min_inclusive=False, maximum=5.0),
     },
     "move": {
         "distance_m": Key("number", default=6.0, minimum=0.0, min_inclusive=False, maximum=1000.0),
@@ -139,6 +143,32 @@ SCHEMA: dict[str, dict[str, Key]] = {
         "measured_sd_hz": Key("numbers", default=(), minimum=0.0),
     },
 }
+# sway sensor for the feedback controller: what it measures (the commissioning logs' names), its noise
+# standard deviation and resolution in that unit, and its delay in whole drive cycles
+SCHEMA["sensor"] = {
+    "kind": Key("choice", default="hook_angle_rad", choices=SENSOR_KINDS),
+    "noise_sd": Key("number", default=0.0, minimum=0.0, maximum=10.0),
+    "resolution": Key("number", default=0.0, minimum=0.0, maximum=1.0),
+    "delay_cycles": Key("int", default=0, minimum=0, maximum=50),
+    # fault path of the feedback runtime: a reading beyond max_abs (sensor unit; unset: 0.35 rad, or 0.35 x the
+    # longest rope plus rigging for offsets), one that changes by more than max_jump in a cycle (unset: 4 x the
+    # fastest sway at max_abs plus 6 noise_sd and 2 resolutions), or no new sample for stale_cycles cycles
+    # switches the feedback off
+    "max_abs": Key("number", default=None, minimum=0.0, min_inclusive=False),
+    "max_jump": Key("number", default=None, minimum=0.0, min_inclusive=False),
+    "stale_cycles": Key("int", default=5, minimum=1, maximum=1000),
+}
+# closed-loop sway damping (stillhook.feedback): present = the project uses a feedback controller
+SCHEMA["feedback"] = {
+    # damping ratio every closed-loop pole pair (both sway modes, the observer) reaches at each row's design rig
+    "target_damping_ratio": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=0.7),
+    # the least damping ratio accepted anywhere on the envelope grid (the check reports pass or fail)
+    "min_damping_ratio": Key("number", default=0.03, minimum=0.0, maximum=0.7),
+    # rope-length rows of the gain schedule, geometrically spaced over the hoist range
+    "rows": Key("int", default=8, minimum=1, maximum=64),
+    # payload mass each row is designed at; unset: [rig] nominal_payload_mass_kg
+    "design_payload_mass_kg": Key("number", default=None, minimum=0.0),
+}
 REQUIRED_SECTIONS = ("rig", "drive")
 #: Longest list a "numbers" key accepts.
 MAX_LIST = 4096
@@ -160,6 +190,9 @@ class Project:
         File stem, e.g. ``"demo_project"``.
     given_sections : tuple of str
         The sections the file itself contains (an empty ``[notch]`` table counts).
+    sensor, feedback : dict
+        Every key of ``[sensor]`` and ``[feedback]``, defaults filled in (the feedback controller is
+        used when ``"feedback" in given_sections``).
     calibration : dict
         ``[calibration]`` with defaults filled in (written by ``stillhook calibrate``; empty lists when absent).
     """
@@ -173,6 +206,8 @@ class Project:
     digest: str
     name: str = "project"
     given_sections: tuple[str, ...] = ()
+    sensor: dict = field(default_factory=dict)
+    feedback: dict = field(default_factory=dict)
     calibration: dict = field(default_factory=dict)
 
 
@@ -295,7 +330,8 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
         raise ConfigError("[calibration] " + ", ".join(f"{k} ({len(cal[k])})" for k in lists)
                           + " have different lengths; allowed: one entry each per identified mode")
     return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name,
-                   given_sections=tuple(section for section in SCHEMA if section in data), calibration=cal)
+                   given_sections=tuple(section for section in SCHEMA if section in data), calibration=cal,
+                   sensor=s["sensor"], feedback=s["feedback"])
 
 
 def load_project(path: str | Path) -> Project:

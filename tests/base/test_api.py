@@ -8,7 +8,7 @@ import pytest
 
 import stillhook
 
-SUBPACKAGES = ("model", "sim", "shaping", "notch", "firmware", "study", "commission", "report", "cli")
+SUBPACKAGES = ("model", "sim", "shaping", "notch", "feedback", "firmware", "study", "commission", "report", "cli")
 
 
 @pytest.mark.parametrize("name", sorted(stillhook.__all__))

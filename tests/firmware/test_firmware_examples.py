@@ -18,7 +18,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from stillhook.shaping.lookup import lookup_thresholds, rows_for_counts
+from stillhook.model.lookup import lookup_thresholds, rows_for_counts
 from tests.paths import FIRMWARE_EXAMPLES_DIR as FW
 
 RECORDING = FW / "data" / "operator_recording.csv"
@@ -144,7 +144,7 @@ def test_host_output_follows_the_shaper_definition(host_build):
     row_m = np.array([r["rope_length_m"] for r in m["shaper_rows"]])
     # lookup status: 1 below the envelope, 2 above (shk_fixed.h); row by the manifest's rule
     assert np.array_equal(status, np.where(rope < li["min_counts"], 1, np.where(rope > li["max_counts"], 2, 0)))
-    # row by the one lookup rule (stillhook.shaping.lookup, checked against its definition in
+    # row by the one lookup rule (stillhook.model.lookup, checked against its definition in
     # tests/shaping/test_lookup.py): the manifest's rows and rule give the manifest's thresholds
     assert lookup_thresholds(row_m, li["lookup_rule"], li["lsb_m"]).tolist() == li["thresholds_counts"]
     want_rows = rows_for_counts(li["thresholds_counts"], np.clip(rope, li["min_counts"], li["max_counts"]))

@@ -13,9 +13,9 @@ from stillhook.cli import main
 from stillhook.errors import ConfigError, EmitError
 from stillhook.firmware.plan import plan_for_project, render_files, write_emit
 from stillhook.firmware.runtime import RUNTIME_FILES, RUNTIME_VERSION, runtime_dir
+from stillhook.model.lookup import lookup_thresholds
 from stillhook.project import load_project, project_from_dict
 from stillhook.shaping.closed_forms import umzv, zv, zvd
-from stillhook.shaping.lookup import lookup_thresholds
 from stillhook.shaping.shaper import Shaper
 from stillhook.version import __version__
 

@@ -7,6 +7,7 @@ import json
 import numpy as np
 import pytest
 
+from stillhook.model.lookup import schedule_rows
 from stillhook.project import load_project, project_from_dict
 from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.envelope_design import (
@@ -16,7 +17,6 @@ from stillhook.shaping.envelope_design import (
     schedule_for_project,
     schedule_ratio,
 )
-from stillhook.shaping.lookup import schedule_rows
 from stillhook.shaping.residual_map import mode_shares, payload_participations, residual_ratio
 
 
@@ -74,7 +74,7 @@ def test_demo_schedule_rows_lookup_and_between_rows(demo_project, demo_design):
     assert L[0] == env.rope_length_range_m[0] and L[-1] == env.rope_length_range_m[1]
     assert np.all(np.diff(L) > 0) and 2 <= L.size <= demo_project.design["max_schedule_rows"]
     assert all(s.on_grid(sched.cycle_s) and np.all(s.amplitudes >= 0) for s in sched.shapers)
-    # lookup: the one rule of stillhook.shaping.lookup (checked against its definition in test_lookup.py)
+    # lookup: the one rule of stillhook.model.lookup (checked against its definition in test_lookup.py)
     probe = np.linspace(L[0] - 0.5, L[-1] + 0.5, 1001)
     np.testing.assert_array_equal(sched.row_for(probe), schedule_rows(L, probe, "nearest"))
     assert sched.row_for(0.5 * (L[0] + L[1])) == 1

@@ -12,8 +12,8 @@ import pytest
 from stillhook.cli import main
 from stillhook.errors import ConfigError
 from stillhook.model.envelope import Envelope
+from stillhook.model.lookup import lookup_thresholds, schedule_rows
 from stillhook.shaping.closed_forms import zv, zvd
-from stillhook.shaping.lookup import lookup_thresholds, schedule_rows
 from stillhook.shaping.shaper import Shaper
 from stillhook.sim.profiles import trapezoid
 from stillhook.study.modal_sweep import ModalBatch
@@ -36,7 +36,7 @@ def demo_sweep(demo_project):
 @pytest.mark.parametrize("rule", ["nearest", "at_or_below"])
 def test_schedule_rows_follow_the_firmware_lookup(rule):
     # The emitted runtime's lookup (stillhook.firmware.qformat.ScheduleTable, mirrored bit for bit by the
-    # C runtime) on thresholds from stillhook.shaping.lookup.lookup_thresholds, fed rope lengths in counts.
+    # C runtime) on thresholds from stillhook.model.lookup.lookup_thresholds, fed rope lengths in counts.
     from stillhook.firmware.qformat import ScheduleTable
 
     rows_m = np.array([1.2, 1.9, 2.75, 4.1, 6.0, 9.5])

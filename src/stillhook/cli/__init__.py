@@ -21,8 +21,8 @@ from stillhook.version import __version__
 __all__ = ["COMMANDS", "build_parser", "main"]
 
 #: Sub-commands in the order ``--help`` lists them; each is a module of this package.
-COMMANDS = ("modes", "simulate", "shaper", "notch", "compare", "sweep", "emit", "report", "identify", "calibrate",
-            "demo")
+COMMANDS = ("modes", "simulate", "shaper", "notch", "feedback", "compare", "sweep", "emit", "report", "identify",
+            "calibrate", "demo")
 
 
 def _available_commands() -> list[tuple[str, object]]:

@@ -12,6 +12,7 @@ from stillhook.cli._common import (
     print_cautions,
     print_json,
 )
+from stillhook.cli._controllers import add_scenario_arguments, metrics_rows, scenario_from_args, wants_closed_loop
 
 HELP = "compare shapers and the notch filter on the project's move (nonlinear simulation, one table)"
 
@@ -22,7 +23,33 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="travel distance (m); default: [move] distance_m of the project")
     p.add_argument("--no-hoist", action="store_true",
                    help="keep the rope length fixed (ignore [move] hoist_to_m)")
+    add_scenario_arguments(p, many=True)
     add_json_argument(p)
+
+
+def _run_controllers(args: argparse.Namespace) -> int:
+    from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
+    from stillhook.project import load_project_or_demo
+    from stillhook.study.controllers import CONTROLLERS, run_controllers
+
+    project = load_project_or_demo(args.project)
+    names = tuple(dict.fromkeys(args.controller or CONTROLLERS))
+    scenario = scenario_from_args(args, include_hoist=not args.no_hoist)
+    results = run_controllers(project, names, scenario)
+    cautions = list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if any("feedback" in n for n in names) else [])
+    if args.json:
+        print_json({"scenario": scenario.as_dict(), "controllers": {n: r.metrics() for n, r in results.items()},
+                    "cautions": cautions})
+        return 0
+    print(f"Controllers on {project.name}: nominal rig, closed loop with the drive's speed loop "
+          f"({project.drive['speed_loop_time_constant_s']:g} s) and the sensor {project.sensor['kind']}")
+    headers, rows = metrics_rows(results)
+    print(format_table(headers, rows))
+    print("\nresidual: peak |payload offset| in the settle window after the command, hoist and force end; settle: "
+          "time until the payload stays within the rest band of the target; end error: final trolley position "
+          "minus the target.")
+    print_bullets("Cautions", cautions)
+    return 0
 
 
 def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
@@ -30,6 +57,8 @@ def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    if wants_closed_loop(args):
+        return _run_controllers(args)
     from stillhook.cautions import CAUTIONS
     from stillhook.project import load_project_or_demo
     from stillhook.study.compare import compare_project

@@ -33,11 +33,14 @@ def run(args: argparse.Namespace) -> int:
     plan, written = write_emit(project, args.out, target=args.target, fmt=args.format, prefix=args.prefix)
     sizes = plan.sizes()
     if args.json:
-        from stillhook.cautions import CAUTIONS
+        from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
 
+        fb = plan.feedback is not None
         print_json({"out": str(args.out), "target": args.target, "files": sorted(p.name for p in written),
                     "format": plan.fmt, "format_reason": plan.format_reason, "rows": len(plan.rows),
-                    "notch": plan.notch is not None, "sizes": sizes, "cautions": list(CAUTIONS)})
+                    "notch": plan.notch is not None, "sizes": sizes,
+                    **({"feedback": plan.feedback_summary} if fb else {}),
+                    "cautions": list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if fb else [])})
         return 0
     if args.target == "st":
         return _report_st(args, plan, written)
@@ -51,8 +54,26 @@ def run(args: argparse.Namespace) -> int:
           f"flash {sizes['flash_table_bytes']} bytes of tables")
     print(f"check on the host: cd {args.out} && cc -std=c99 -o {plan.prefix}_selftest {plan.prefix}_selftest.c "
           f"{plan.prefix}_tables.c shk_*.c && ./{plan.prefix}_selftest")
+    _report_feedback(plan, "c")
     print_cautions()
     return 0
+
+
+def _report_feedback(plan, target: str) -> None:
+    """One line on the feedback block (C) or that the target lacks it (ST), and the feedback cautions."""
+    if plan.feedback is None:
+        return
+    from stillhook.cautions import FEEDBACK_CAUTIONS
+    from stillhook.cli._common import print_bullets
+
+    fs = plan.feedback_summary
+    if target == "c":
+        print(f"feedback: {plan.feedback.n_rows} rows, {plan.feedback.n_obs} observer states, sensor "
+              f"{fs['sensor_kind']} ({plan.prefix}_feedback.h/.c); worst closed-loop damping ratio "
+              f"{fs['worst_closed_loop_damping_ratio']:.4g} ({'pass' if fs['passed'] else 'FAIL'})")
+    else:
+        print("note: the project has [feedback], but the feedback block is emitted for the C target only")
+    print_bullets("Feedback cautions", FEEDBACK_CAUTIONS)
 
 
 def _report_st(args: argparse.Namespace, plan, written) -> int:
@@ -70,5 +91,6 @@ def _report_st(args: argparse.Namespace, plan, written) -> int:
           f"(table per row in {names['readme']})")
     if plan.format_reason:
         print(f"note: {plan.format_reason}")
+    _report_feedback(plan, "st")
     print_cautions()
     return 0

@@ -155,7 +155,7 @@ def _run_project(args) -> int:
           f"(rope {d.worst_at[0]:.4g} m, payload {d.worst_at[1]:.5g} kg); worst V per mode: "
           + ", ".join(_pct(v) for v in d.worst_vibration))
     if d.schedule is not None:
-        from stillhook.shaping.lookup import rule_words
+        from stillhook.model.lookup import rule_words
 
         s = d.schedule
         print(f"\nLength schedule ({s.reason}; lookup: {rule_words(s.lookup_rule)}):")

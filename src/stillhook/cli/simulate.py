@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_bullets, print_json
+from stillhook.cli._controllers import add_scenario_arguments, metrics_rows, scenario_from_args, wants_closed_loop
 
 HELP = "simulate the project's move (unshaped) on the nonlinear hook-and-payload model"
 
@@ -14,10 +15,40 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--distance", type=float, metavar="M", default=None,
                    help="travel distance (m); default: [move] distance_m of the project (6 m if unset)")
     p.add_argument("--out", metavar="DIR", default=None, help="write sim.csv and sim.png into DIR")
+    add_scenario_arguments(p, many=False)
     add_json_argument(p)
 
 
+def _run_closed_loop(args: argparse.Namespace) -> int:
+    from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
+    from stillhook.project import load_project_or_demo
+    from stillhook.study.controllers import run_controllers
+
+    project = load_project_or_demo(args.project)
+    name = args.controller or "none"
+    result = run_controllers(project, (name,), scenario_from_args(args))[name]
+    cautions = list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if "feedback" in name else [])
+    if args.out is not None:
+        from stillhook.outputs import write_files
+        from stillhook.sim.recording import sim_csv, sim_plot_png
+
+        rig = project.envelope.nominal_rig
+        write_files(args.out, {"sim.csv": sim_csv(result.sim), "sim.png": sim_plot_png(result.sim, rig)})
+    if args.json:
+        print_json({"controller": name, **result.metrics(), "scenario": scenario_from_args(args).as_dict(),
+                    "cautions": cautions})
+        return 0
+    headers, rows = metrics_rows({name: result})
+    print(f"Closed loop on {project.name}: nominal rig, drive speed loop "
+          f"{project.drive['speed_loop_time_constant_s']:g} s, sensor {project.sensor['kind']}")
+    print(format_table(headers, rows))
+    print_bullets("Cautions", cautions)
+    return 0
+
+
 def run(args: argparse.Namespace) -> int:
+    if wants_closed_loop(args):
+        return _run_closed_loop(args)
     from stillhook.project import load_project_or_demo
     from stillhook.sim.dynamics import simulate
     from stillhook.sim.profiles import project_move

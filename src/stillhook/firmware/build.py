@@ -28,7 +28,7 @@ from stillhook.firmware.runtime import RUNTIME_FILES, runtime_dir
 __all__ = ["CRuntime", "load_emitted", "runtime_cdef"]
 
 #: Runtime headers whose declarations cffi needs, in include order.
-_CDEF_HEADERS = ("shk_fixed.h", "shk_schedule.h", "shk_shaper.h", "shk_biquad.h")
+_CDEF_HEADERS = ("shk_fixed.h", "shk_schedule.h", "shk_shaper.h", "shk_biquad.h", "shk_feedback.h")
 
 
 def runtime_cdef(folder: Path | None = None) -> str:
@@ -44,6 +44,9 @@ def runtime_cdef(folder: Path | None = None) -> str:
     for name in _CDEF_HEADERS:
         text = (base / name).read_text()
         text = re.sub(r"/\*.*?\*/", "", text, flags=re.S)
+        # array sizes given by a numeric #define (e.g. SHK_FB_MAX_OBS) become the number for cffi
+        for macro, value in re.findall(r"^#define\s+(\w+)\s+(\d+)\s*$", text, flags=re.M):
+            text = text.replace(f"[{macro}]", f"[{value}]")
         kept, continued = [], False
         for line in text.splitlines():
             drop = continued or line.lstrip().startswith(("#", "SHK_STATIC_ASSERT"))
@@ -191,7 +194,8 @@ def load_emitted(folders, build_dir, *, extra_compile_args=("-std=c99", "-O1")) 
     prefixes = [m["prefix"] for m in manifests]
     if len(set(prefixes)) != len(prefixes):
         raise EmitError(f"folders must have distinct prefixes, got {prefixes}")
-    header = "".join(f'#include "{m["prefix"]}_tables.h"\n' for m in manifests)
+    header = "".join(f'#include "{n}"\n' for n in RUNTIME_FILES if n.endswith(".h"))
+    header += "".join(f'#include "{m["prefix"]}_tables.h"\n' for m in manifests)
     header += "".join(_getter_defs(m) for m in manifests)
     sources = [str(folders[0] / n) for n in RUNTIME_FILES if n.endswith(".c")]
     sources += [str(f / f"{m['prefix']}_tables.c") for f, m in zip(folders, manifests, strict=True)]

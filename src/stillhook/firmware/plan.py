@@ -11,7 +11,7 @@ What gets emitted
       (by default a length-scheduled two-mode shaper within the project's tolerance over the
       envelope), amplitudes as integers summing to exactly 2^F, delays in whole drive cycles;
     * the rope-length lookup: thresholds in input counts (``[firmware] rope_length_lsb_m`` metres
-      per count) that reproduce the schedule's own row rule (see :func:`stillhook.shaping.lookup.lookup_thresholds`);
+      per count) that reproduce the schedule's own row rule (see :func:`stillhook.model.lookup.lookup_thresholds`);
     * the notch cascade, only when asked: ``[firmware] notch = true``, or, with that key unset, when
       the project file has a ``[notch]`` section (an empty ``[notch]`` table asks for the
       default notch). Its coefficients are checked for notch shift (:mod:`stillhook.firmware.notch_tables`);
@@ -35,20 +35,24 @@ from pathlib import Path
 
 import numpy as np
 
-from stillhook.cautions import CAUTIONS
+from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
 from stillhook.errors import ConfigError, EmitError
+from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robustness import check_envelope
+from stillhook.firmware.feedback_tables import feedback_tables
 from stillhook.firmware.notch_tables import choose_notch_format
 from stillhook.firmware.qformat import FRACTION_BITS, ScheduleTable, quantize_amplitudes
 from stillhook.firmware.render_c import render_readme, render_tables_c, render_tables_h
+from stillhook.firmware.render_feedback import render_feedback_c, render_feedback_h
 from stillhook.firmware.render_st import check_st_prefix, render_st_files
 from stillhook.firmware.runtime import INSTANCE_BYTES_32BIT, RUNTIME_VERSION, runtime_sources
 from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
+from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds, rope_length_counts
 from stillhook.notch.design import notch_for_project
 from stillhook.outputs import to_json, write_files
 from stillhook.project import SCHEMA
 from stillhook.shaping.envelope_design import schedule_for_project
-from stillhook.shaping.lookup import LOOKUP_RULES, lookup_thresholds, rope_length_counts
 from stillhook.version import __version__
 
 __all__ = [
@@ -125,6 +129,9 @@ class EmitPlan:
     notch: object | None  # stillhook.firmware.notch_tables.NotchCheck
     ram_budget_bytes: int
     design_note: str = ""
+    #: stillhook.firmware.feedback_tables.FeedbackTables when the project has [feedback], and its check summary
+    feedback: object | None = None
+    feedback_summary: dict | None = None
 
     def sizes(self) -> dict:
         """RAM (caller buffers) and flash (const tables) in bytes."""
@@ -188,6 +195,13 @@ class EmitPlan:
                 "sos": [[float(c) for c in row] for row in t.sos()],
                 **self.notch.as_dict(),
             }
+        if self.feedback is not None:
+            t = self.feedback
+            out["feedback"] = {**self.feedback_summary, "rows": t.n_rows, "observer_states": t.n_obs,
+                               "sensor_full_scale": t.fs_y, "speed_full_scale_m_s": t.fs_v,
+                               "thresholds_counts": [int(v) for v in t.thresholds],
+                               "fractions": {"obs_next": t.frac_o, "du_row": t.frac_u, "vhat_row": t.frac_v,
+                                             "drive": t.frac_d}}
         out["sizes"] = self.sizes()
         out["files"] = sorted(files)
         return out
@@ -252,11 +266,23 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
     fmt_out = check.table.fmt if check is not None else fmt_requested
     rows, table = _shaper_rows(schedule, cycle_s, fmt_out)
     rule, sched = _schedule_table(project.envelope, schedule, float(fw["rope_length_lsb_m"]))
+    fb_tables, fb_summary = _feedback(project, float(fw["rope_length_lsb_m"]))
     plan = EmitPlan(prefix, fmt_out, fmt_requested, reason, cycle_s, project.digest, project.name,
                     project.envelope.describe(), float(schedule.tolerance), rule, tuple(rows), table, sched, check,
-                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "")
+                    int(fw["ram_budget_bytes"]), getattr(schedule, "reason", "") or "", fb_tables, fb_summary)
     _check_ram(plan)
     return plan
+
+
+def _feedback(project, lsb: float):
+    """(FeedbackTables, check summary) when the project has ``[feedback]``, else (None, None)."""
+    if "feedback" not in project.given_sections:
+        return None, None
+    env = project.envelope
+    design = feedback_for_project(project)
+    check = check_envelope(design, env, project.feedback["min_damping_ratio"])
+    summary = {**check.as_dict(), "sensor_kind": design.sensor_kind, "delay_cycles": design.delay_cycles}
+    return feedback_tables(design, env, project.sensor, lsb), summary
 
 
 def _notch_check(project, fmt_requested: str, forced: bool, cycle_s: float, notch_sos, include_notch):
@@ -326,8 +352,12 @@ def render_files(plan: EmitPlan) -> dict[str, str]:
     files[f"{p}_tables.c"] = render_tables_c(plan)
     files[f"{p}_selftest.c"] = render_selftest(plan)
     files[f"{p}_README.md"] = render_readme(plan)
+    if plan.feedback is not None:
+        files[f"{p}_feedback.h"] = render_feedback_h(plan, plan.feedback, plan.feedback_summary)
+        files[f"{p}_feedback.c"] = render_feedback_c(plan, plan.feedback)
     names = sorted([*files, "manifest.json"])
-    files["manifest.json"] = to_json({**plan.manifest(names), "cautions": list(CAUTIONS)})
+    cautions = list(CAUTIONS) + (list(FEEDBACK_CAUTIONS) if plan.feedback is not None else [])
+    files["manifest.json"] = to_json({**plan.manifest(names), "cautions": cautions})
     return {k: files[k] for k in sorted(files)}
 
 

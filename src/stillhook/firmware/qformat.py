@@ -39,7 +39,7 @@ import numpy as np
 
 from stillhook.errors import ConfigError, EmitError
 from stillhook.fixed_point import FRACTION_BITS, round_half_up, round_shift
-from stillhook.shaping.lookup import rope_length_counts, rows_for_counts
+from stillhook.model.lookup import rope_length_counts, rows_for_counts
 
 __all__ = [
     "BiquadModel", "BiquadTable", "FRACTION_BITS", "MAX_POST_SHIFT", "MAX_STAGES", "MAX_TAPS", "SAMPLE_BYTES",

@@ -16,7 +16,7 @@ __all__ = ["INSTANCE_BYTES_32BIT", "RUNTIME_FILES", "RUNTIME_VERSION", "runtime_
 
 #: Runtime files copied verbatim from codegen/ into every emitted folder.
 RUNTIME_FILES = ("shk_fixed.h", "shk_schedule.h", "shk_schedule.c", "shk_shaper.h", "shk_shaper.c",
-                 "shk_biquad.h", "shk_biquad.c")
+                 "shk_biquad.h", "shk_biquad.c", "shk_feedback.h", "shk_feedback.c")
 #: Must equal SHK_RUNTIME_VERSION in codegen/shk_fixed.h; the tables #error on a mismatch.
 RUNTIME_VERSION = 2
 #: Bytes of the runtime's instance structs on a 32-bit target (pointers 4 bytes): shaper, notch.

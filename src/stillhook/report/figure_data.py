@@ -24,7 +24,7 @@ from dataclasses import replace
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.shaping.lookup import row_edges_m, schedule_rows
+from stillhook.model.lookup import row_edges_m, schedule_rows
 from stillhook.sim.dynamics import simulate_batch
 from stillhook.sim.profiles import project_move
 

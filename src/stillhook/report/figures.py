@@ -15,6 +15,7 @@ from matplotlib.figure import Figure
 
 from stillhook.errors import ConfigError
 from stillhook.report.commissioning_figures import sway_fit_figure
+from stillhook.report.feedback_figures import closed_loop_response_figure, damping_map_figure
 from stillhook.report.figure_data import DESIGN_COLORS
 
 __all__ = [
@@ -159,6 +160,7 @@ def residual_map_figure(data: dict):
 
 _RENDERERS = {"sensitivity": sensitivity_figure, "time_response": time_response_figure,
               "frequency_map": frequency_map_figure, "residual_map": residual_map_figure,
+              "damping_map": damping_map_figure, "closed_loop_response": closed_loop_response_figure,
               "sway_fit": sway_fit_figure}
 
 

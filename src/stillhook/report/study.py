@@ -23,6 +23,7 @@ from stillhook.firmware.plan import plan_for_project, render_files
 from stillhook.notch.design import notch_for_project
 from stillhook.report import figure_data as plot_data
 from stillhook.report.commissioning_section import commissioning_data
+from stillhook.report.feedback_section import feedback_figures, feedback_json, feedback_study
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.study.compare import compare_project
 from stillhook.study.sweep import sweep_project
@@ -52,6 +53,7 @@ class Study:
     emit_plan: object | None = None
     firmware_files: dict | None = None
     selftest: dict | None = None
+    feedback: dict | None = None
     commissioning: dict | None = None
     figures: dict = field(default_factory=dict)
     problems: dict = field(default_factory=dict)
@@ -116,6 +118,9 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     study.emit_plan = _step(study, "firmware", lambda: plan_for_project(project))
     if study.emit_plan is not None:
         study.firmware_files = render_files(study.emit_plan)
+    if "feedback" in project.given_sections:
+        say("feedback")
+        study.feedback = _step(study, "feedback", lambda: feedback_study(project, study.design))
     say("figures")
     t0 = time.perf_counter()
     study.figures = figure_data(study)
@@ -145,6 +150,8 @@ def figure_data(study: Study) -> dict:
     figs["time_response"] = plot_data.time_response_data(p, filters)
     if study.sweep is not None and study.sweep.grid_shape is not None:
         figs["residual_maps"] = plot_data.residual_map_data(study.sweep)
+    if study.feedback is not None:
+        figs.update(feedback_figures(p, study.feedback))
     return figs
 
 
@@ -178,6 +185,7 @@ def report_json(study: Study) -> dict:
         "sweep": _sweep_json(study.sweep),
         "firmware": firmware_summary(study),
         "selftest": study.selftest,
+        "feedback": feedback_json(study.feedback),
         "commissioning": study.commissioning,
         "problems": dict(sorted(study.problems.items())),
         "figures": study.figures,

@@ -41,12 +41,12 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from stillhook.errors import DesignError
+from stillhook.model.lookup import row_edges_m, rule_words, schedule_rows
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
 from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.design_store import load_or_make
-from stillhook.shaping.lookup import row_edges_m, rule_words, schedule_rows
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate

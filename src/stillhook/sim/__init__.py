@@ -6,6 +6,10 @@ Every name below is loaded from its module on first use (see :mod:`stillhook.laz
 from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
+    "run_closed_loop": "stillhook.sim.closed_loop",
+    "cycle_step": "stillhook.sim.closed_loop",
+    "Sensor": "stillhook.sim.closed_loop",
+    "ClosedLoopResult": "stillhook.sim.closed_loop",
     "CommandFilter": "stillhook.sim.command_filter",
     "check_below_half_rate": "stillhook.sim.drive_rate",
     "half_rate_hz": "stillhook.sim.drive_rate",

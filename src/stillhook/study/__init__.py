@@ -6,6 +6,9 @@ Every name below is loaded from its module on first use (see :mod:`stillhook.laz
 from stillhook.lazy import lazy_exports
 
 _EXPORTS = {
+    "run_controllers": "stillhook.study.controllers",
+    "CONTROLLERS": "stillhook.study.controllers",
+    "Scenario": "stillhook.study.controllers",
     "Candidate": "stillhook.study.compare",
     "Row": "stillhook.study.compare",
     "Comparison": "stillhook.study.compare",

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.shaping.lookup import schedule_rows
+from stillhook.model.lookup import schedule_rows
 
 __all__ = ["SpotCheck", "SweepDesign", "SweepResult"]
 
@@ -33,7 +33,7 @@ class SweepDesign:
     lsb_m : float or None
         Rope-length input resolution of the firmware (m per count). When set, rows are picked
         exactly as the emitted lookup does: the length rounded to counts, compared with the
-        generator's integer thresholds (:func:`stillhook.shaping.lookup.lookup_thresholds`).
+        generator's integer thresholds (:func:`stillhook.model.lookup.lookup_thresholds`).
     """
 
     key: str

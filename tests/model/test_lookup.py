@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from stillhook.errors import ConfigError
-from stillhook.shaping.lookup import (
+from stillhook.model.lookup import (
     lookup_thresholds,
     rope_length_counts,
     row_edges_m,
