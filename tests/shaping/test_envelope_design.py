@@ -13,11 +13,11 @@ from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.envelope_design import (
     design_for_project,
     design_schedule,
-    design_workers,
     schedule_for_project,
     schedule_ratio,
 )
 from stillhook.shaping.residual_map import mode_shares, payload_participations, residual_ratio
+from stillhook.workers import worker_count
 
 
 @pytest.fixture(scope="module")
@@ -193,4 +193,4 @@ def test_schedule_rows_are_independent_so_any_worker_count_gives_the_same_schedu
     one = design_schedule(p, d.shaper, workers=1)
     two = design_schedule(p, d.shaper, workers=2)
     assert json.dumps(one.as_dict()) == json.dumps(two.as_dict()) == json.dumps(d.schedule.as_dict())
-    assert design_workers(1) == 1 and design_workers(100) >= 1
+    assert worker_count(1) == 1 and worker_count(100) >= 1 and worker_count(5, 2) == 2 and worker_count(1, 8) == 1

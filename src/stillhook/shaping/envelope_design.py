@@ -34,7 +34,6 @@ import contextlib
 import json
 import math
 import multiprocessing
-import os
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
@@ -52,10 +51,11 @@ from stillhook.shaping.design_store import load_or_make
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
+from stillhook.workers import worker_count
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
-    "design_for_project", "design_schedule", "design_workers", "schedule_for_project", "schedule_ratio",
+    "design_for_project", "design_schedule", "schedule_for_project", "schedule_ratio",
     "schedule_row_count", "schedule_rope_lengths",
 ]
 
@@ -332,15 +332,6 @@ def schedule_rope_lengths(env, max_rows: int) -> np.ndarray:
     return rows
 
 
-def design_workers(n_rows: int) -> int:
-    """Processes for n_rows schedule rows: one per available core, never more than rows."""
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except AttributeError:  # pragma: no cover - not on Linux
-        cores = os.cpu_count() or 1
-    return max(1, min(cores, n_rows))
-
-
 def _row_shaper(env, method: str, span_m, tol: float, tol_d: float, cycle: float, whole: Shaper):
     """(shaper, high mode treated) for the rope-length span ``span_m`` of one schedule row.
 
@@ -373,7 +364,7 @@ def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], No
     total : int
         The ``total`` passed to ``progress``.
     workers : int, optional
-        Processes (default :func:`design_workers`: one per available core). The result does not
+        Processes (default :func:`stillhook.workers.worker_count`: one per available core). The result does not
         depend on it: every row is designed from its own span alone.
 
     Returns
@@ -389,7 +380,7 @@ def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], No
     lo_range, hi_range = env.rope_length_range_m
     spans = [(max(lo_range, a - ROW_OVERLAP * (b - a)), min(hi_range, b + ROW_OVERLAP * (b - a)))
              for a, b in probe.row_spans_m()]
-    n_workers = design_workers(len(spans)) if workers is None else max(1, min(int(workers), len(spans)))
+    n_workers = worker_count(len(spans), workers)
     args = [(env, method, span, tol, tol_d, cycle, whole) for span in spans]
     shapers, treated = [], []
     with contextlib.ExitStack() as stack:

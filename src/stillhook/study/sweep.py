@@ -22,7 +22,6 @@ described in :mod:`stillhook.study.modal_sweep`.
 from __future__ import annotations
 
 import contextlib
-import os
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
 
@@ -36,9 +35,10 @@ from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate_batch
 from stillhook.sim.profiles import project_move
 from stillhook.study.modal_sweep import AccelRuns, ModalBatch, end_amplitudes, peak_after_end
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
+from stillhook.workers import worker_count
 
 __all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "SpotCheck", "SweepDesign", "SweepResult", "project_designs",
-           "residuals", "spot_checks", "sweep_project", "worker_count"]
+           "residuals", "spot_checks", "sweep_project"]
 
 #: Designs the sweep knows, in output order.
 DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
@@ -131,15 +131,6 @@ def corner_points(envelope) -> list[tuple[float, float]]:
 
 
 # -- the sweep -----------------------------------------------------------------------------------
-def worker_count(n_chunks: int) -> int:
-    """Processes for n_chunks chunks of rigs: one per available core, never more than chunks."""
-    try:
-        cores = len(os.sched_getaffinity(0))
-    except AttributeError:  # pragma: no cover - not on Linux
-        cores = os.cpu_count() or 1
-    return max(1, min(cores, n_chunks))
-
-
 def _chunk_residuals(batch: ModalBatch, runs, settle_s: float, rows) -> np.ndarray:
     """Residual sway (designs, r) of one chunk of rigs; runs[i][row] are design i's AccelRuns."""
     R = batch.size
@@ -164,7 +155,7 @@ def residuals(batch: ModalBatch, designs, cycle_s: float, *, settle_s: float = S
     runs = [[AccelRuns.from_speed(cmd, cycle_s) for cmd in d.commands] for d in designs]
     rows = [d.rows_for(batch.rope_length_m) for d in designs]
     chunks = [slice(b, min(b + CHUNK_RIGS, R)) for b in range(0, R, CHUNK_RIGS)]
-    n_workers = worker_count(len(chunks)) if workers is None else max(1, min(int(workers), len(chunks)))
+    n_workers = worker_count(len(chunks), workers)
     args = ((batch.take(sl), runs, settle_s, [r[sl] for r in rows]) for sl in chunks)
     out = np.empty((len(designs), R))
     with contextlib.ExitStack() as stack:
