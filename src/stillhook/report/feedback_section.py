@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from stillhook.cautions import FEEDBACK_CAUTIONS
-from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robust import feedback_for_project
 from stillhook.feedback.robustness import check_envelope, envelope_grid
 from stillhook.model.lookup import row_edges_m
 from stillhook.report.html import esc, figure, num, table
