@@ -110,15 +110,16 @@ def _evaluate(design: FeedbackDesign, k: int, rigs, zeta_0: float, delay_needed:
 
 
 def robust_feedback(envelope, *, sensor: dict, design_payload_mass_kg: float, target_damping_ratio: float,
-                    **drive_and_rows) -> FeedbackDesign:
+                    n_rope: int = 9, n_payload: int = 7, **drive_and_rows) -> FeedbackDesign:
     """:func:`design_feedback`, then each row re-tuned until it passes over its points (module docstring).
 
-    Parameters as :func:`~stillhook.feedback.design.design_feedback`. The returned design's
-    ``row_reports`` holds one :class:`RowReport` per row.
+    Parameters as :func:`~stillhook.feedback.design.design_feedback`; ``n_rope``, ``n_payload`` size the
+    grid as in :func:`~stillhook.feedback.robustness.check_envelope` (keep them equal to the check's).
+    The returned design's ``row_reports`` holds one :class:`RowReport` per row.
     """
     base = design_feedback(envelope, sensor=sensor, design_payload_mass_kg=design_payload_mass_kg,
                            target_damping_ratio=target_damping_ratio, **drive_and_rows)
-    L_grid, m_grid = envelope_grid(base, envelope)
+    L_grid, m_grid = envelope_grid(base, envelope, n_rope, n_payload)
     zeta_0 = float(envelope.damping_ratio)
     delay_needed = MIN_DELAY_MARGIN_CYCLES + base.delay_cycles
     m_lo, m_hi = envelope.payload_mass_range_kg
