@@ -69,3 +69,18 @@ def pipeline_runs(tmp_path_factory):
                               "--json"])
     return {"demo": (demo_out, demo_status, buf.getvalue()),
             "report": (report_out, report_status, json.loads(buf_report.getvalue()) if report_status == 0 else None)}
+
+
+#: Set by .ci/run: a test that would skip because a tool is missing fails instead (CI installs every tool).
+REQUIRE_TOOLS = os.environ.get("STILLHOOK_REQUIRE_TOOLS") == "1"
+
+
+@pytest.hookimpl(hookwrapper=True)
+def pytest_runtest_makereport(item, call):
+    """With STILLHOOK_REQUIRE_TOOLS=1 a skip is a failure: a gate that matters never silently skips in CI."""
+    outcome = yield
+    report = outcome.get_result()
+    if REQUIRE_TOOLS and report.skipped and not hasattr(report, "wasxfail"):
+        reason = report.longrepr[2] if isinstance(report.longrepr, tuple) else str(report.longrepr)
+        report.outcome = "failed"
+        report.longrepr = f"skipped although STILLHOOK_REQUIRE_TOOLS=1 (CI must have the tool): {reason}"

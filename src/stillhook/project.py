@@ -21,13 +21,13 @@ Minimal file::
 from __future__ import annotations
 
 import hashlib
-import math
 import tomllib
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 from typing import Any
 
+from stillhook.checks import LIMITS, check_identifier, check_quantity
 from stillhook.errors import ConfigError, InputFileError, StillhookError
 from stillhook.model.envelope import Envelope
 from stillhook.model.sensors import SENSOR_KINDS
@@ -40,134 +40,130 @@ class Key:
     """One key of the schema.
 
     kind: "number", "range" (number or [min, max]), "numbers" (a list of numbers), "int", "bool", "choice",
-    "identifier".
+    "identifier". Numbers take their allowed range from :data:`stillhook.checks.LIMITS` under the key's name
+    (the same range as the CLI option).
     """
 
     kind: str
     default: Any = None
     required: bool = False
-    minimum: float | None = None
-    maximum: float | None = None
-    min_inclusive: bool = True
-    max_inclusive: bool = True
     choices: tuple[str, ...] = ()
 
-    def allowed(self) -> str:
+    def allowed(self, key: str) -> str:
         if self.kind == "bool":
             return "true or false"
         if self.kind == "choice":
             return "one of " + ", ".join(repr(c) for c in self.choices)
         if self.kind == "identifier":
-            return "a C identifier of letters, digits and '_' (1-24 characters, not starting with a digit)"
-        parts = []
-        if self.minimum is not None:
-            parts.append((">= " if self.min_inclusive else "> ") + f"{self.minimum:g}")
-        if self.maximum is not None:
-            parts.append(("<= " if self.max_inclusive else "< ") + f"{self.maximum:g}")
-        what = {"number": "a number", "int": "a whole number", "numbers": f"a list of at most {MAX_LIST} numbers each",
-                "range": "a number or [min, max] with min <= max"}[self.kind]
-        return what + (" " + " and ".join(parts) if parts else "")
+            return "a C identifier (letters, digits and '_', starting with a letter)"
+        text = LIMITS[key].allowed()
+        if self.kind == "range":
+            return "a number or [min, max] with min <= max, each " + text
+        if self.kind == "numbers":
+            return f"a list of at most {MAX_LIST} numbers, each " + text
+        return text
 
 
-#: Every section and key the project file accepts. Units are in the key names.
+#: Every section and key the project file accepts. Units are in the key names; ranges in checks.LIMITS.
 SCHEMA: dict[str, dict[str, Key]] = {
     "rig": {
-        "hook_mass_kg": Key("number", required=True, minimum=0.0, min_inclusive=False),
-        "rigging_length_m": Key("number", required=True, minimum=0.0),
-        "rope_length_m": Key("range", required=True, minimum=0.0, min_inclusive=False),
-        "payload_mass_kg": Key("range", required=True, minimum=0.0),
-        "damping_ratio": Key("number", default=0.0, minimum=0.0, maximum=1.0, max_inclusive=False),
-        "gravity_m_s2": Key("number", default=9.80665, minimum=0.0, min_inclusive=False),
-        "nominal_rope_length_m": Key("number", default=None, minimum=0.0, min_inclusive=False),
-        "nominal_payload_mass_kg": Key("number", default=None, minimum=0.0),
+        "hook_mass_kg": Key("number", required=True),
+        "rigging_length_m": Key("number", required=True),
+        "rope_length_m": Key("range", required=True),
+        "payload_mass_kg": Key("range", required=True),
+        "damping_ratio": Key("number", default=0.0),
+        "gravity_m_s2": Key("number", default=9.80665),
+        "nominal_rope_length_m": Key("number", default=None),
+        "nominal_payload_mass_kg": Key("number", default=None),
         # pendulum length = encoder rope length + rope_offset_m (sheaves, hook block geometry); see Envelope
-        "rope_offset_m": Key("number", default=0.0, minimum=-100.0, maximum=100.0),
+        "rope_offset_m": Key("number", default=0.0),
     },
     "drive": {
-        "cycle_s": Key("number", required=True, minimum=1e-5, maximum=0.1),
-        "max_speed_m_s": Key("number", required=True, minimum=0.0, min_inclusive=False, maximum=10.0),
-        "max_accel_m_s2": Key("number", required=True, minimum=0.0, min_inclusive=False, maximum=10.0),
-        "max_jerk_m_s3": Key("number", default=None, minimum=0.0, min_inclusive=False),
-        "hoist_speed_m_s": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=5.0),
-        "hoist_accel_m_s2": Key("number", default=0.2, minimum=0.0, min_inclusive=False, maximum=10.0),
+        "cycle_s": Key("number", required=True),
+        "max_speed_m_s": Key("number", required=True),
+        "max_accel_m_s2": Key("number", required=True),
+        "max_jerk_m_s3": Key("number", default=None),
+        "hoist_speed_m_s": Key("number", default=0.1),
+        "hoist_accel_m_s2": Key("number", default=0.2),
         # the drive's closed speed loop as a first-order lag (s); 0.05 s is common practice for trolley
         # inverter drives (no source): used by the feedback design and the closed-loop simulation
-        "speed_loop_time_constant_s": Key("number", default=0.05, minimum=0.0, min_inclusive=False, maximum=5.0),
+        "speed_loop_time_constant_s": Key("number", default=0.05),
     },
     "move": {
-        "distance_m": Key("number", default=6.0, minimum=0.0, min_inclusive=False, maximum=1000.0),
+        "distance_m": Key("number", default=6.0),
         "profile": Key("choice", default="trapezoid", choices=("trapezoid", "scurve")),
-        "hoist_to_m": Key("number", default=None, minimum=0.0, min_inclusive=False),
-        "hoist_start_s": Key("number", default=0.0, minimum=0.0),
+        "hoist_to_m": Key("number", default=None),
+        "hoist_start_s": Key("number", default=0.0),
     },
     "design": {
-        "tolerance_pct": Key("number", default=5.0, minimum=0.0, min_inclusive=False, maximum=100.0,
-                             max_inclusive=False),
+        "tolerance_pct": Key("number", default=5.0),
         "method": Key("choice", default="auto",
                       choices=("auto", "zv", "zvd", "zvdd", "ei", "ei2", "ei3", "umzv", "band")),
         "schedule": Key("bool", default=True),
-        "max_schedule_rows": Key("int", default=64, minimum=1, maximum=4096),
+        "max_schedule_rows": Key("int", default=64),
     },
     "notch": {
-        "width_hz": Key("number", default=None, minimum=0.0, min_inclusive=False),
-        "depth_db": Key("number", default=None, minimum=0.0, min_inclusive=False, maximum=200.0),
+        "width_hz": Key("number", default=None),
+        "depth_db": Key("number", default=None),
+        # default width: -3 dB at the mode's band edges ("band") or the tolerance over the band ("tolerance")
+        "width_rule": Key("choice", default="band", choices=("band", "tolerance")),
     },
     "firmware": {
         "format": Key("choice", default="q15", choices=("q15", "q31")),
         "prefix": Key("identifier", default="sway"),
-        "ram_budget_bytes": Key("int", default=32768, minimum=64, maximum=1 << 30),
+        "ram_budget_bytes": Key("int", default=32768),
         # rope length input of the schedule lookup: metres per count of the uint32 the drive passes
-        "rope_length_lsb_m": Key("number", default=0.001, minimum=1e-6, maximum=1.0),
+        "rope_length_lsb_m": Key("number", default=0.001),
         # emit the notch cascade too; unset: emit it when the file has a [notch] section
         "notch": Key("bool", default=None),
         # largest shift of a notch frequency that coefficient rounding may cause, percent of it
-        "max_notch_shift_pct": Key("number", default=1.0, minimum=0.0, min_inclusive=False, maximum=50.0),
+        "max_notch_shift_pct": Key("number", default=1.0),
         # when Q15 rounding would move a notch past that limit, emit everything in Q31 instead of refusing
         "escalate_to_q31": Key("bool", default=True),
     },
     # written by `stillhook calibrate`: the values before calibration, the fit's standard deviations and
     # the identified frequencies it fitted (one entry per identified mode); the report's commissioning section
     "calibration": {
-        "nominal_hook_mass_kg": Key("number", default=None, minimum=0.0, min_inclusive=False),
-        "nominal_rigging_length_m": Key("number", default=None, minimum=0.0),
-        "nominal_rope_offset_m": Key("number", default=None, minimum=-100.0, maximum=100.0),
-        "nominal_damping_ratio": Key("number", default=None, minimum=0.0, maximum=1.0, max_inclusive=False),
-        "hook_mass_sd_kg": Key("number", default=None, minimum=0.0),
-        "rigging_length_sd_m": Key("number", default=None, minimum=0.0),
-        "rope_offset_sd_m": Key("number", default=None, minimum=0.0),
-        "damping_ratio_sd": Key("number", default=None, minimum=0.0),
-        "rope_length_m": Key("numbers", default=(), minimum=0.0, min_inclusive=False),
-        "payload_mass_kg": Key("numbers", default=(), minimum=0.0),
-        "mode": Key("numbers", default=(), minimum=1.0, maximum=2.0),
-        "measured_hz": Key("numbers", default=(), minimum=0.0, min_inclusive=False),
-        "measured_sd_hz": Key("numbers", default=(), minimum=0.0),
+        "nominal_hook_mass_kg": Key("number", default=None),
+        "nominal_rigging_length_m": Key("number", default=None),
+        "nominal_rope_offset_m": Key("number", default=None),
+        "nominal_damping_ratio": Key("number", default=None),
+        "hook_mass_sd_kg": Key("number", default=None),
+        "rigging_length_sd_m": Key("number", default=None),
+        "rope_offset_sd_m": Key("number", default=None),
+        "damping_ratio_sd": Key("number", default=None),
+        "rope_length_m": Key("numbers", default=()),
+        "payload_mass_kg": Key("numbers", default=()),
+        "mode": Key("numbers", default=()),
+        "measured_hz": Key("numbers", default=()),
+        "measured_sd_hz": Key("numbers", default=()),
     },
 }
 # sway sensor for the feedback controller: what it measures (the commissioning logs' names), its noise
 # standard deviation and resolution in that unit, and its delay in whole drive cycles
 SCHEMA["sensor"] = {
     "kind": Key("choice", default="hook_angle_rad", choices=SENSOR_KINDS),
-    "noise_sd": Key("number", default=0.0, minimum=0.0, maximum=10.0),
-    "resolution": Key("number", default=0.0, minimum=0.0, maximum=1.0),
-    "delay_cycles": Key("int", default=0, minimum=0, maximum=50),
+    "noise_sd": Key("number", default=0.0),
+    "resolution": Key("number", default=0.0),
+    "delay_cycles": Key("int", default=0),
     # fault path of the feedback runtime: a reading beyond max_abs (sensor unit; unset: 0.35 rad, or 0.35 x the
     # longest rope plus rigging for offsets), one that changes by more than max_jump in a cycle (unset: 4 x the
     # fastest sway at max_abs plus 6 noise_sd and 2 resolutions), or no new sample for stale_cycles cycles
     # switches the feedback off
-    "max_abs": Key("number", default=None, minimum=0.0, min_inclusive=False),
-    "max_jump": Key("number", default=None, minimum=0.0, min_inclusive=False),
-    "stale_cycles": Key("int", default=5, minimum=1, maximum=1000),
+    "max_abs": Key("number", default=None),
+    "max_jump": Key("number", default=None),
+    "stale_cycles": Key("int", default=5),
 }
 # closed-loop sway damping (stillhook.feedback): present = the project uses a feedback controller
 SCHEMA["feedback"] = {
     # damping ratio every closed-loop pole pair (both sway modes, the observer) reaches at each row's design rig
-    "target_damping_ratio": Key("number", default=0.1, minimum=0.0, min_inclusive=False, maximum=0.7),
+    "target_damping_ratio": Key("number", default=0.1),
     # the least damping ratio accepted anywhere on the envelope grid (the check reports pass or fail)
-    "min_damping_ratio": Key("number", default=0.03, minimum=0.0, maximum=0.7),
+    "min_damping_ratio": Key("number", default=0.03),
     # rope-length rows of the gain schedule, geometrically spaced over the hoist range
-    "rows": Key("int", default=8, minimum=1, maximum=64),
+    "rows": Key("int", default=8),
     # payload mass each row is designed at; unset: [rig] nominal_payload_mass_kg
-    "design_payload_mass_kg": Key("number", default=None, minimum=0.0),
+    "design_payload_mass_kg": Key("number", default=None),
 }
 REQUIRED_SECTIONS = ("rig", "drive")
 #: Longest list a "numbers" key accepts.
@@ -215,57 +211,42 @@ def _where(section: str, key: str) -> str:
     return f"[{section}] {key}"
 
 
-def _number(section: str, key: str, spec: Key, value: Any) -> float:
-    if isinstance(value, bool) or not isinstance(value, int | float):
-        raise ConfigError(f"{_where(section, key)} = {value!r} is not a number; allowed: {spec.allowed()}")
-    v = float(value)
-    bad = not math.isfinite(v)
-    if spec.minimum is not None:
-        bad |= v < spec.minimum or (v == spec.minimum and not spec.min_inclusive)
-    if spec.maximum is not None:
-        bad |= v > spec.maximum or (v == spec.maximum and not spec.max_inclusive)
-    if bad:
-        raise ConfigError(f"{_where(section, key)} = {value!r} is out of range; allowed: {spec.allowed()}")
-    return v
+def _number(section: str, key: str, value: Any) -> float:
+    if not isinstance(value, int | float) or isinstance(value, bool):  # a TOML string "5" is not a number
+        raise ConfigError(f"{_where(section, key)} = {value!r} is not a number; allowed: {LIMITS[key].allowed()}")
+    return check_quantity(key, value, name=_where(section, key))
 
 
 def _value(section: str, key: str, spec: Key, value: Any) -> Any:
     where = _where(section, key)
     if spec.kind == "number":
-        return _number(section, key, spec, value)
+        return _number(section, key, value)
     if spec.kind == "int":
-        if isinstance(value, bool) or not isinstance(value, int):
-            raise ConfigError(f"{where} = {value!r} is not a whole number; allowed: {spec.allowed()}")
-        _number(section, key, spec, value)
-        return int(value)
+        return check_quantity(key, value, name=where)
     if spec.kind == "range":
         if isinstance(value, list):
             if len(value) != 2:
-                raise ConfigError(f"{where} = {value!r} has {len(value)} items; allowed: {spec.allowed()}")
-            lo, hi = (_number(section, key, spec, v) for v in value)
+                raise ConfigError(f"{where} = {value!r} has {len(value)} items; allowed: {spec.allowed(key)}")
+            lo, hi = (_number(section, key, v) for v in value)
             if lo > hi:
-                raise ConfigError(f"{where} = {value!r} has min > max; allowed: {spec.allowed()}")
+                raise ConfigError(f"{where} = {value!r} has min > max; allowed: {spec.allowed(key)}")
             return (lo, hi)
-        v = _number(section, key, spec, value)
+        v = _number(section, key, value)
         return (v, v)
     if spec.kind == "numbers":
         if not isinstance(value, list) or len(value) > MAX_LIST:
-            raise ConfigError(f"{where} = {value!r} is not a list of numbers; allowed: {spec.allowed()}")
-        return tuple(_number(section, key, spec, v) for v in value)
+            raise ConfigError(f"{where} = {value!r} is not a list of numbers; allowed: {spec.allowed(key)}")
+        return tuple(_number(section, key, v) for v in value)
     if spec.kind == "bool":
         if not isinstance(value, bool):
-            raise ConfigError(f"{where} = {value!r} is not true/false; allowed: {spec.allowed()}")
+            raise ConfigError(f"{where} = {value!r} is not true/false; allowed: {spec.allowed(key)}")
         return value
     if spec.kind == "choice":
         if value not in spec.choices:
-            raise ConfigError(f"{where} = {value!r} is not allowed; allowed: {spec.allowed()}")
+            raise ConfigError(f"{where} = {value!r} is not allowed; allowed: {spec.allowed(key)}")
         return value
     if spec.kind == "identifier":
-        ok = (isinstance(value, str) and 1 <= len(value) <= 24 and value.isascii()
-              and (value[0].isalpha() or value[0] == "_") and all(c.isalnum() or c == "_" for c in value))
-        if not ok:
-            raise ConfigError(f"{where} = {value!r} is not allowed; allowed: {spec.allowed()}")
-        return value
+        return check_identifier(where, value)
     raise AssertionError(f"unknown key kind {spec.kind}")  # schema bug, not user input
 
 
@@ -293,7 +274,7 @@ def validate(data: dict) -> dict[str, dict]:
             if key in given:
                 values[key] = _value(section, key, spec, given[key])
             elif spec.required:
-                raise ConfigError(f"missing key {_where(section, key)}; allowed: {spec.allowed()}")
+                raise ConfigError(f"missing key {_where(section, key)}; allowed: {spec.allowed(key)}")
             else:
                 values[key] = spec.default
         out[section] = values
@@ -358,7 +339,7 @@ def load_project(path: str | Path) -> Project:
 
 def _parse(raw: bytes, label: str, name: str) -> Project:
     try:
-        data = tomllib.loads(raw.decode("utf-8"))
+        data = tomllib.loads(raw.decode("utf-8-sig"))  # a byte-order mark some editors write is skipped
     except UnicodeDecodeError:
         raise InputFileError(f"project file {label!r} is not UTF-8 text") from None
     except tomllib.TOMLDecodeError as exc:

@@ -28,7 +28,7 @@ def _edit(text, old, new):
 
 
 @pytest.mark.parametrize("old,new,words", [
-    ("hook_mass_kg = 180.0", "hook_mass_kg = -5.0", ["[rig] hook_mass_kg", "-5.0", "> 0"]),
+    ("hook_mass_kg = 180.0", "hook_mass_kg = -5.0", ["[rig] hook_mass_kg", "-5.0", "at least 1 kg"]),
     ("rope_length_m = [2.0, 8.0]", "rope_length_m = [8.0, 2.0]", ["rope_length_m", "min > max"]),
     ("rope_length_m = [2.0, 8.0]", "rope_length_m = nan", ["rope_length_m", "nan"]),
     ("rope_length_m = [2.0, 8.0]", "rope_length_m = [2.0, 8.0, 9.0]", ["rope_length_m", "3 items"]),

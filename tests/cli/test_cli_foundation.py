@@ -11,8 +11,8 @@ from stillhook.cli import main
 
 
 def test_modes_json_low_mode_first(capsys):
-    assert main(["modes", "--hook-mass", "7", "--payload-mass", "7", "--rope-length", "2.5",
-                 "--rigging-length", "2.5", "--json"]) == 0
+    assert main(["modes", "--hook-mass-kg", "7", "--payload-mass-kg", "7", "--rope-length-m", "2.5",
+                 "--rigging-length-m", "2.5", "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     w = [m["omega_rad_s"] for m in out["modes"]]
     # Kibble & Berkshire, Classical Mechanics, 5th ed., 2004: w^2 = (2 -+ sqrt 2) g/L for equal masses/lengths
@@ -33,7 +33,7 @@ def test_modes_of_a_project_show_bands(capsys, minimal_project_file):
 
 def test_simulate_writes_csv_and_plot(tmp_path, capsys, minimal_project_file):
     out = tmp_path / "sim"
-    assert main(["simulate", str(minimal_project_file), "--distance", "3", "--out", str(out), "--json"]) == 0
+    assert main(["simulate", str(minimal_project_file), "--distance-m", "3", "--out", str(out), "--json"]) == 0
     metrics = json.loads(capsys.readouterr().out)["metrics"]
     assert metrics["residual_payload_sway_m"] > 0
     header = (out / "sim.csv").read_text().splitlines()[0]
@@ -42,13 +42,20 @@ def test_simulate_writes_csv_and_plot(tmp_path, capsys, minimal_project_file):
 
 
 @pytest.mark.parametrize("argv,words", [
-    (["modes", "--hook-mass", "1", "--payload-mass", "-1", "--rope-length", "1", "--rigging-length", "1"],
-     "payload_mass_kg"),
-    (["modes", "--hook-mass", "nan", "--payload-mass", "1", "--rope-length", "1", "--rigging-length", "1"],
+    (["modes", "--hook-mass-kg", "1", "--payload-mass-kg", "-1", "--rope-length-m", "1", "--rigging-length-m", "1"],
+     "--payload-mass-kg = -1.0 is too small"),
+    (["modes", "--hook-mass-kg", "nan", "--payload-mass-kg", "1", "--rope-length-m", "1", "--rigging-length-m", "1"],
      "not finite"),
-    (["modes", "--hook-mass", "1"], "missing --payload-mass"),
+    (["modes", "--hook-mass-kg", "1"], "missing --payload-mass-kg"),
     (["modes", "no_such_file.toml"], "not found"),
-    (["simulate", "demo", "--distance", "-2"], "distance_m"),
+    (["simulate", "demo", "--distance-m", "-2"], "--distance-m = -2.0 is too small"),
+    (["simulate", "demo", "--distance-m", "1e6"], "--distance-m = 1000000.0 is too large; allowed: at most 1000 m"),
+    (["modes", "--hook-mass-kg", "1e-9", "--payload-mass-kg", "100", "--rope-length-m", "5",
+      "--rigging-length-m", "2"], "--hook-mass-kg = 1e-09 is too small; allowed: at least 1 kg"),
+    (["sweep", "demo", "--grid", "1001", "5"], "--grid = 1001 is too large; allowed: at most 1000"),
+    (["emit", "demo", "--out", "never_written", "--prefix", "shk"], "--prefix = 'shk' collides"),
+    (["emit", "demo", "--out", "never_written", "--prefix", "_Bool"], "--prefix = '_Bool' is not allowed"),
+    (["emit", "demo", "--out", "never_written", "--prefix", "int"], "--prefix = 'int' is not allowed"),
 ])
 def test_errors_are_one_line(capsys, argv, words):
     assert main(argv) == 2

@@ -31,12 +31,21 @@ hoist_to_m = 5.5
 def test_compare_json_and_text(tmp_path, capsys):
     p = tmp_path / "rig.toml"
     p.write_text(PROJECT)
-    assert main(["compare", str(p), "--distance", "2", "--json"]) == 0
+    assert main(["compare", str(p), "--distance-m", "2", "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["distance_m"] == 2.0 and data["hoist_during_move"] is True
     assert [r["method"] for r in data["rows"]] == ["unshaped", "zv", "zvd", "ei", "band", "two_mode", "notch"]
     assert data["cautions"]
-    assert main(["compare", str(p), "--distance", "2", "--no-hoist"]) == 0
+    # ranked by meeting the tolerance, then the time added (stillhook.study.ranking); the verdict says which
+    ranking = data["ranking"]
+    assert sorted(r["key"] for r in ranking) == ["band", "ei", "notch", "two_mode", "zv", "zvd"]
+    meets = [r for r in ranking if r["meets"]]
+    assert ranking[:len(meets)] == meets and [r["added_s"] for r in meets] == sorted(r["added_s"] for r in meets)
+    assert data["verdict"].startswith("recommended: " if meets else "no design meets")
+    # every command above the drive's limits is named (physical limit of the drive, issue 11)
+    over = {r["label"] for r in data["rows"] if r["peak_speed_m_s"] > 0.5 * (1 + 1e-9)}
+    assert all(any(w.startswith(label) for w in data["over_drive_limits"]) for label in over)
+    assert main(["compare", str(p), "--distance-m", "2", "--no-hoist"]) == 0
     text = capsys.readouterr().out
     for word in ("unshaped", "ZVD", "notch", "added delay", "Cautions"):
         assert word in text
@@ -45,7 +54,7 @@ def test_compare_json_and_text(tmp_path, capsys):
 def test_compare_errors(tmp_path, capsys):
     p = tmp_path / "rig.toml"
     p.write_text(PROJECT)
-    assert main(["compare", str(p), "--distance", "-1"]) == 2
+    assert main(["compare", str(p), "--distance-m", "-1"]) == 2
     err = capsys.readouterr().err
     assert err.startswith("stillhook: error:") and err.count("\n") == 1 and "distance" in err
     assert main(["compare", str(tmp_path / "missing.toml")]) == 2

@@ -8,6 +8,7 @@ import pytest
 
 from stillhook.cautions import CAUTIONS
 from stillhook.cli import main
+from stillhook.outputs import MARKER
 from tests.conftest import MINIMAL_TOML
 
 #: A quick design (closed-form ZVD rows, few of them) with a notch, so the command runs in about a second.
@@ -37,14 +38,15 @@ def test_target_st_writes_the_plc_folder_and_prints_the_cautions(capsys, tmp_pat
     code, out, err = _run(capsys, "emit", quick_project, "--target", "st", "--out", str(tmp_path / "plc"),
                           "--prefix", "crab")
     assert code == 0 and err == ""
-    assert sorted(p.name for p in (tmp_path / "plc").iterdir()) == ["crab.st", "crab_README.md", "crab_plcopen.xml",
-                                                                     "manifest.json"]
+    # every folder stillhook writes also holds its marker (stillhook.outputs.MARKER)
+    assert sorted(p.name for p in (tmp_path / "plc").iterdir()) == [MARKER, "crab.st", "crab_README.md",
+                                                                     "crab_plcopen.xml", "manifest.json"]
     assert "CRAB_SHAPER" in out and CAUTIONS[0] in out
     st = (tmp_path / "plc" / "crab.st").read_text()
     assert "FUNCTION_BLOCK CRAB_SHAPER" in st and "FUNCTION_BLOCK CRAB_NOTCH" in st
     manifest = json.loads((tmp_path / "plc" / "manifest.json").read_text())
     assert manifest["target"] == "iec61131-3-st" and manifest["plc"]["call_order"][0] == "CRAB_SHAPER"
-    assert manifest["files"] == sorted(p.name for p in (tmp_path / "plc").iterdir())
+    assert manifest["files"] == sorted(p.name for p in (tmp_path / "plc").iterdir() if p.name != MARKER)
 
 
 def test_default_target_is_c_and_json_names_the_target(capsys, tmp_path, quick_project):

@@ -63,7 +63,7 @@ def test_json_is_deterministic(capsys):
     (("notch", "--frequency-hz", "0.4"), "--cycle-s"),
     (("notch", "--frequency-hz", "80", "--cycle-s", "0.01"), "half the drive rate"),
     (("notch", "demo", "--frequency-hz", "0.4"), "not both"),
-    (("notch", "--frequency-hz", "0.4", "--cycle-s", "0.01", "--depth-db", "10"), "depth"),
+    (("notch", "--frequency-hz", "0.4", "--cycle-s", "0.01", "--depth-db", "2"), "--depth-db = 2.0 is too small"),
     (("notch", "--frequency-hz", "0.4", "--cycle-s", "0.01", "--tolerance-pct", "0"), "tolerance"),
     (("notch", "no_such_file.toml"), "not found"),
 ])

@@ -26,7 +26,7 @@ def test_zvd_json_has_impulses_and_duration(capsys):
 
 def test_two_frequencies_give_a_two_mode_shaper_and_drive_cycle_report(capsys):
     out = run_json(capsys, "--method", "ei", "--frequency-hz", "0.3", "--frequency-hz", "0.9",
-                   "--tolerance", "5", "--damping", "0.01", "--cycle-s", "0.01", "--band", "0.27", "0.33")
+                   "--tolerance-pct", "5", "--damping-ratio", "0.01", "--cycle-s", "0.01", "--band-hz", "0.27", "0.33")
     assert len(out["impulses"]) == 9 and len(out["modes"]) == 2
     dc = out["drive_cycle"]
     assert set(dc) >= {"round", "split", "resolve", "original", "impulses", "remedy"}
@@ -38,7 +38,8 @@ def test_two_frequencies_give_a_two_mode_shaper_and_drive_cycle_report(capsys):
 
 
 def test_band_method_two_bands_reports_direct_and_convolved(capsys):
-    out = run_json(capsys, "--method", "band", "--band", "0.25", "0.3", "--band", "0.6", "0.8", "--cycle-s", "0.02")
+    out = run_json(capsys, "--method", "band", "--band-hz", "0.25", "0.3", "--band-hz", "0.6", "0.8",
+                   "--cycle-s", "0.02")
     tm = out["two_mode"]
     assert tm["direct"]["duration_s"] <= tm["convolved"]["duration_s"]
     assert out["duration_s"] == tm["direct"]["duration_s"]
@@ -63,16 +64,16 @@ def test_project_design_json_and_text(capsys, minimal_project_file):
 
 
 @pytest.mark.parametrize("argv, fragment", [
-    (["--method", "zv", "--frequency-hz", "0.5", "--tolerance", "0"], "tolerance"),
-    (["--method", "ei", "--frequency-hz", "0.5", "--tolerance", "-3"], "tolerance"),
-    (["--method", "band", "--band", "0.8", "0.5"], "LO < HI"),
-    (["--method", "band", "--band", "0.5", "0.5"], "LO < HI"),
+    (["--method", "zv", "--frequency-hz", "0.5", "--tolerance-pct", "0"], "tolerance"),
+    (["--method", "ei", "--frequency-hz", "0.5", "--tolerance-pct", "-3"], "tolerance"),
+    (["--method", "band", "--band-hz", "0.8", "0.5"], "LO < HI"),
+    (["--method", "band", "--band-hz", "0.5", "0.5"], "LO < HI"),
     (["--method", "zv", "--frequency-hz", "30", "--cycle-s", "0.05"], "half the drive rate"),
-    (["--method", "band", "--band", "1", "12", "--cycle-s", "0.05"], "half the drive rate"),
-    (["--method", "zvd", "--frequency-hz", "0.5", "--damping", "1"], "damping"),
+    (["--method", "band", "--band-hz", "1", "12", "--cycle-s", "0.05"], "half the drive rate"),
+    (["--method", "zvd", "--frequency-hz", "0.5", "--damping-ratio", "1"], "damping"),
     (["--method", "zvd", "--frequency-hz", "-1"], "frequency"),
     (["--method", "zvd"], "--frequency-hz"),
-    (["--method", "band"], "--band"),
+    (["--method", "band"], "--band-hz"),
     (["--frequency-hz", "0.5"], "--method"),
     (["demo", "--method", "zv"], "not both"),
 ])
@@ -82,9 +83,11 @@ def test_impossible_requests_exit_2_with_one_line(capsys, argv, fragment):
     assert err.count("\n") == 1 and err.startswith("stillhook: error:") and fragment in err
 
 
-def test_project_with_mode_above_half_drive_rate_is_refused(capsys, tmp_path):
+def test_project_with_implausible_rope_is_refused_with_the_reason(capsys, tmp_path):
+    # 1 mm of rope used to reach the half-drive-rate check; the plausibility bound now stops it first
     p = tmp_path / "fast.toml"
     p.write_text("[rig]\nhook_mass_kg = 100.0\nrigging_length_m = 0.0\nrope_length_m = [0.001, 0.01]\n"
                  "payload_mass_kg = 10.0\n[drive]\ncycle_s = 0.1\nmax_speed_m_s = 0.5\nmax_accel_m_s2 = 0.3\n")
     assert main(["shaper", str(p)]) == 2
-    assert "half the drive rate" in capsys.readouterr().err
+    err = capsys.readouterr().err
+    assert "[rig] rope_length_m = 0.001 is too small; allowed: at least 0.1 m" in err and err.count("\n") == 1

@@ -97,7 +97,7 @@ def test_cli_maps_scales_and_windows_a_camera_log(tmp_path, capsys):
     p = tmp_path / "cam.csv"
     p.write_bytes(_csv({"time_s": t, "cam_x": 1000 * y}))
     argv = ["identify", str(p), "--column", "payload_offset_m=cam_x", "--scale", "payload_offset_m=0.001",
-            "--window", "10", "50", "--json"]
+            "--window-s", "10", "50", "--json"]
     assert main(argv) == 0
     (seg,) = json.loads(capsys.readouterr().out)["segments"]
     assert seg["start_s"] == pytest.approx(10.0) and seg["end_s"] == pytest.approx(50.0)

@@ -200,7 +200,8 @@ def test_host_task_clean_under_sanitizers(host_build, tmp_path):
 
 
 @needs_host
-@pytest.mark.skipif(shutil.which("cppcheck") is None, reason="cppcheck not installed")
+@pytest.mark.skipif(shutil.which("cppcheck") is None,
+                    reason="cppcheck is not installed (.ci/run installs it with apt-get)")
 def test_example_c_passes_cppcheck(host_build):
     build, _ = host_build
     sources = [str(p) for p in (FW / "host").glob("*.c")] + [str(p) for p in (FW / "common").glob("*.c")] + \

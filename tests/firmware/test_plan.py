@@ -100,7 +100,7 @@ def test_emitting_twice_gives_byte_identical_folders(demo_project, sched, tmp_pa
     write_emit(demo_project, tmp_path / "b", schedule=sched, include_notch=True)
     a = {p.name: p.read_bytes() for p in (tmp_path / "a").iterdir()}
     b = {p.name: p.read_bytes() for p in (tmp_path / "b").iterdir()}
-    assert a == b and len(a) == len(RUNTIME_FILES) + 5
+    assert a == b and len(a) == len(RUNTIME_FILES) + 6  # 5 emitted files and stillhook's marker (outputs.MARKER)
 
 
 def test_ram_budget_refusal_names_the_figure(demo_project, sched):
@@ -143,7 +143,9 @@ def test_q15_notch_escalates_to_q31_or_is_refused_with_numbers(sched):
     m = json.loads(render_files(plan)["manifest.json"])
     assert m["format"] == "q31" and m["notch"]["format"] == "q31"
     assert all(abs(s["relative_shift"]) <= 0.01 for s in m["notch"]["sections"])
-    with pytest.raises(EmitError, match=r"moves from 0\.19\d* Hz to .* Hz \(\+\d+"):
+    # the default notch is as wide as the mode's band: the low one is lost in Q15, the high one moves
+    lost_and_moved = r"notch 1 at 0\.19\d* Hz is lost.*notch 2 moves from 0\.6\d* Hz to .* Hz \(-\d"
+    with pytest.raises(EmitError, match=lost_and_moved):
         plan_for_project(p, schedule=sched, fmt="q15")  # an explicit format is never changed
     no_escalation = project_from_dict(_demo_dict(firmware={"notch": True, "escalate_to_q31": False}))
     with pytest.raises(EmitError, match="escalate_to_q31"):
@@ -173,7 +175,8 @@ def test_rows_closer_than_one_count_are_refused(demo_project, sched):
 
 
 def test_bad_prefix_is_refused(demo_project, sched):
-    for bad in ("9lives", "shk_x", "has-dash", ""):
+    # C reserves _X and __x names (ISO/IEC 9899:1999, 7.1.3); keywords; the runtime's own shk_* file names
+    for bad in ("9lives", "shk_x", "has-dash", "", "shk", "SHKa", "_x", "__x", "_Bool", "int", "static", "bool"):
         with pytest.raises(ConfigError, match="prefix"):
             plan_for_project(demo_project, schedule=sched, prefix=bad)
 

@@ -11,7 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from stillhook.errors import ConfigError, DesignError, StillhookError
-from stillhook.notch.design import design_notches, notch_section, pole_damping_for_band
+from stillhook.notch.design import band_centre_hz, design_notches, notch_section, pole_damping_for_band
 from stillhook.notch.transfer import cascade_tf
 
 
@@ -29,22 +29,26 @@ def _iirnotch_pole_damping(f0_hz: float, Q: float, fs_hz: float) -> float:
 
 
 @pytest.mark.parametrize("f0, Q, fs", [(0.5, 2.0, 100.0), (0.38153, 2.0, 20.0), (0.2, 0.7, 200.0),
-                                       (1.5, 10.0, 50.0), (4.0, 0.3, 10.0)])
+                                       (1.5, 10.0, 50.0), (4.0, 1.0, 10.0)])
 def test_matches_scipy_iirnotch(f0, Q, fs):
     # scipy.signal.iirnotch follows Orfanidis, Introduction to Signal Processing, 1996, section 11.3.
     from scipy.signal import iirnotch
 
     b, a = iirnotch(f0, Q, fs)
     zeta_p = _iirnotch_pole_damping(f0, Q, fs)
-    design = design_notches(f0, 1.0 / fs, width_hz=2.0 * zeta_p * f0)
+    # width_hz is the digital -3 dB width, which is iirnotch's f0 / Q (issue 11: stated width = actual width)
+    design = design_notches(f0, 1.0 / fs, width_hz=f0 / Q)
     np.testing.assert_allclose(design.sos[0], np.concatenate([b, a]), rtol=0, atol=1e-12)
+    assert design.sections[0].pole_damping == pytest.approx(zeta_p, rel=1e-12)
+    assert design.sections[0].width_hz == pytest.approx(f0 / Q, rel=1e-12)
 
 
 def test_iirnotch_reference_values():
     # Computed from Orfanidis's formulas (Introduction to Signal Processing, 1996, section 11.3) for
     # f0 = 0.5 Hz, Q = 2, fs = 100 Hz: b = [0.99220706, -1.98343494, 0.99220706], a = [1, -1.98343494, 0.98441413].
     zeta_p = _iirnotch_pole_damping(0.5, 2.0, 100.0)
-    sos = design_notches(0.5, 0.01, width_hz=2 * zeta_p * 0.5).sos[0]
+    sos = design_notches(0.5, 0.01, width_hz=0.5 / 2.0).sos[0]
+    assert design_notches(0.5, 0.01, width_hz=0.25).sections[0].pole_damping == pytest.approx(zeta_p, rel=1e-12)
     np.testing.assert_allclose(sos, [0.99220706, -1.98343494, 0.99220706, 1.0, -1.98343494, 0.98441413], atol=5e-9)
 
 
@@ -68,7 +72,7 @@ def test_matches_python_control_tustin_prewarp(f0, zeta_p, zeta_z, T):
 def test_exact_null_at_notch_after_prewarping(f0, T):
     # Tustin with prewarping at w0 maps s = j w0 onto z = exp(j w0 T) exactly (Oppenheim & Schafer,
     # Discrete-Time Signal Processing, 3rd ed., 2010, section 7.2), so the zeros of s^2 + w0^2 land at f0.
-    d = design_notches(f0, T)
+    d = design_notches(f0, T, width_rule="tolerance")
     assert abs(d.frequency_response([f0])[0]) < 1e-9
     # and the response is not zero a little away from the notch
     assert abs(d.frequency_response([1.5 * f0])[0]) > 0.01
@@ -106,7 +110,7 @@ def test_unit_dc_gain_and_stable_poles(f0, ratio, T, depth):
 def test_python_control_export_matches_cascade():
     import control
 
-    d = design_notches([0.2, 0.45], 0.005)
+    d = design_notches([0.2, 0.45], 0.005, width_rule="tolerance")
     H = cascade_tf(d)
     assert H.dt == 0.005
     f = np.array([0.05, 0.2, 0.3, 0.45, 2.0])
@@ -122,7 +126,7 @@ def test_band_derived_width_meets_tolerance_at_band_edges():
     # Width rule: |H| = tol at the worse edge, |H| <= tol inside (|H|^2 = (u + zz^2)/(u + zp^2) is monotone
     # in u = ((1 - r^2)/(2 r))^2; direct evaluation of H(s)). Checked on the digital filter, single notch.
     T, tol = 0.005, 0.05
-    d = design_notches(0.3, T, bands_hz=[(0.22, 0.41)], tolerance=tol)
+    d = design_notches(0.3, T, bands_hz=[(0.22, 0.41)], tolerance=tol, width_rule="tolerance")
     h = np.abs(d.frequency_response(np.linspace(0.22, 0.41, 3001)))
     assert np.max(h) == pytest.approx(tol, rel=1e-6)
     assert d.sections[0].band_worst_residual == pytest.approx(tol, rel=1e-6)
@@ -150,7 +154,7 @@ def test_pole_damping_formula_against_bisection():
 
 
 def test_width_cap_warns_with_worst_residual():
-    d = design_notches(0.3, 0.01, bands_hz=[(0.05, 1.8)], max_pole_damping=3.0)
+    d = design_notches(0.3, 0.01, bands_hz=[(0.05, 1.8)], max_pole_damping=3.0, width_rule="tolerance")
     assert d.sections[0].pole_damping == 3.0
     assert any("above the 5 % tolerance" in w and "capped" in w for w in d.warnings)
     assert d.sections[0].band_worst_residual > 0.05
@@ -160,7 +164,7 @@ def test_user_width_and_depth_are_used():
     d = design_notches([0.2, 0.5], 0.005, width_hz=[0.1, 0.4], depth_db=40.0)
     s0, s1 = d.sections
     assert s0.width_hz == pytest.approx(0.1) and s1.width_hz == pytest.approx(0.4)
-    assert s0.pole_damping == pytest.approx(0.1 / (2 * 0.2))
+    assert s0.pole_damping == pytest.approx(0.1 / (2 * 0.2), rel=1e-3)  # analog 2 zeta_p f0 = width, f << 1/T
     assert s0.zero_damping / s0.pole_damping == pytest.approx(0.01)
     assert s0.depth_db == 40.0
 
@@ -194,7 +198,7 @@ def test_apply_pads_and_keeps_distance():
 @pytest.mark.parametrize("kwargs, error", [
     ({"freqs_hz": 60.0, "cycle_s": 0.01}, DesignError),              # above Nyquist (50 Hz)
     ({"freqs_hz": 50.0, "cycle_s": 0.01}, DesignError),              # at Nyquist
-    ({"freqs_hz": 0.3, "cycle_s": 0.01, "depth_db": 20.0}, DesignError),  # 10 % at centre > 5 % tolerance
+    ({"freqs_hz": 0.3, "cycle_s": 0.01, "depth_db": 20.0, "width_rule": "tolerance"}, DesignError),  # 10 % > 5 %
     ({"freqs_hz": -0.3, "cycle_s": 0.01}, ConfigError),
     ({"freqs_hz": float("nan"), "cycle_s": 0.01}, ConfigError),
     ({"freqs_hz": 0.3, "cycle_s": 0.0}, ConfigError),
@@ -215,7 +219,7 @@ def test_bad_input_gives_one_clear_error(kwargs, error):
 def test_pole_on_unit_circle_is_an_error():
     # zeta_p so large at w T ~ 6e-8 that the slow pole rounds onto z = 1 in double precision
     with pytest.raises(DesignError, match="strictly inside the unit circle"):
-        design_notches(1e-3, 1e-5, width_hz=1e7)
+        design_notches(1e-6, 1e-5, bands_hz=[(1e-7, 1000.0)], width_rule="tolerance", max_pole_damping=1e12)
 
 
 def test_as_dict_is_json_ready_and_deterministic():
@@ -228,3 +232,37 @@ def test_as_dict_is_json_ready_and_deterministic():
     assert len(data["sos"]) == 2 and all(len(r) == 6 for r in data["sos"])
     assert data["sections"][0]["depth_db"] is None  # infinite depth
     assert set(data["quantization"]) == {"q15", "q31"}
+
+
+# -- issue 11: the stated width is the digital filter's -3 dB width; the default covers the band, no more ----
+def _measured_edges(d, f0: float) -> tuple[float, float]:
+    """Frequencies where the single section's |H| = 1/sqrt(2), found by brentq on the digital response."""
+    from scipy.optimize import brentq
+
+    nyq = 0.5 / d.cycle_s
+
+    def g(f):
+        return abs(d.frequency_response([f])[0]) - 1 / math.sqrt(2)
+
+    return brentq(g, 1e-9 * f0, f0, xtol=1e-14), brentq(g, f0, nyq * (1 - 1e-12), xtol=1e-14)
+
+
+@pytest.mark.parametrize("f0, width, depth, T", [(0.64, 0.3, None, 0.005), (20.0, 8.0, None, 0.01),
+                                                 (35.0, 10.0, 40.0, 0.01), (0.2, 0.1, 40.0, 0.005)])
+def test_stated_width_is_the_measured_digital_width(f0, width, depth, T):
+    # -3 dB width measured on the discretized filter (bisection on |H(e^jwT)|, independent of the formula);
+    # at 20 Hz of a 50 Hz Nyquist the analog 2 zeta_p f0 would be off by a large fraction
+    d = design_notches(f0, T, width_hz=width, depth_db=depth)
+    lo, hi = _measured_edges(d, f0)
+    assert hi - lo == pytest.approx(width, rel=1e-9) and d.sections[0].width_hz == pytest.approx(width, rel=1e-12)
+
+
+def test_default_width_puts_the_minus_3_db_edges_on_the_band_edges():
+    band = (0.3222, 1.256)  # the demo's hook-mode band (stillhook modes demo)
+    f0 = band_centre_hz(*band, 0.005)
+    d = design_notches(f0, 0.005, bands_hz=[band])
+    lo, hi = _measured_edges(d, f0)
+    assert (lo, hi) == pytest.approx(band, rel=1e-9)
+    assert d.sections[0].width_hz == pytest.approx(band[1] - band[0], rel=1e-9)
+    assert d.sections[0].band_worst_residual == pytest.approx(1 / math.sqrt(2), rel=1e-6)
+    assert any("above the 5 % tolerance" in w for w in d.warnings)  # said, not hidden

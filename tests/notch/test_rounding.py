@@ -93,7 +93,7 @@ def test_slow_notch_moves_in_q15_and_design_warns(capsys):
 def test_lost_notch_is_flagged():
     # 0.05 Hz at 1 ms: 1 - cos(theta) ~ 5e-8, far below the Q15 step: the rounded zeros become real
     # (or sit at z = 1), so the section has no notch left.
-    d = design_notches(0.05, 0.001)
+    d = design_notches(0.05, 0.001, width_rule="tolerance")
     q = d.quantization["q15"][0]
     assert q.lost and q.quantized_frequency_hz == 0.0 and q.relative_shift == -1.0
     assert any("lost" in w for w in d.warnings)

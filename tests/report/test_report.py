@@ -17,3 +17,7 @@ def test_report_cli_writes_the_folder(pipeline_runs):
     rep = json.loads((out / "report.json").read_text())
     assert rep["project"] == "minimal" and rep["sweep"]["accuracy"]["spot_checks"] == []
     assert rep["firmware"]["files"] and rep["selftest"] is None
+    # the design is checked on the project's own move and the verdict box says how it fares (issue 11)
+    mc = rep["design_on_move"]
+    assert len(mc["points"]) == 5 and mc["holds"] == (mc["worst"]["ratio"] <= mc["tolerance"])
+    assert "tolerance holds" in page if mc["holds"] else "does NOT hold" in page

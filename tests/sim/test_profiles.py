@@ -15,7 +15,7 @@ def _distance(v, Ts):
 
 
 @settings(max_examples=60, deadline=None)
-@given(d=st.floats(0.01, 50.0), v=st.floats(0.05, 2.0), a=st.floats(0.05, 2.0),
+@given(d=st.floats(0.01, 20.0), v=st.floats(0.06, 2.0), a=st.floats(0.05, 2.0),  # within MAX_MOVE_SAMPLES
        Ts=st.sampled_from([0.001, 0.004, 0.005, 0.01, 0.02]))
 def test_trapezoid_limits_and_distance(d, v, a, Ts):
     cmd = trapezoid(d, v, a, Ts)
@@ -57,3 +57,9 @@ def test_hoist_lengths_end_exactly():
 def test_bad_profile_inputs(args):
     with pytest.raises(ConfigError, match="allowed"):
         trapezoid(*args)
+
+
+def test_a_move_of_years_is_refused_before_any_array_is_made():
+    # 1000 m at 1 cm/s on a 10 us cycle: 1e10 cycles; refused with the numbers (stillhook.checks.MAX_MOVE_SAMPLES)
+    with pytest.raises(ConfigError, match=r"drive cycles of a 1000 m move .*1e\+10 is above the limit of 4e\+05"):
+        trapezoid(1000.0, 0.01, 0.005, 1e-5)

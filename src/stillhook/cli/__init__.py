@@ -1,7 +1,8 @@
 """Command-line entry point: ``stillhook COMMAND ...``.
 
 The CLI is thin: each sub-command lives in its own module ``stillhook.cli.<name>``
-with ``HELP`` (one line), ``add_arguments(parser)`` and ``run(args) -> int``. Command
+with ``HELP`` (one line), ``EXAMPLES`` (worked examples, the end of its ``--help``),
+``add_arguments(parser)`` and ``run(args) -> int``. Command
 modules import only argparse-level things at the top; the numerical work (and heavy
 imports such as scipy, python-control, matplotlib) happens inside ``run``.
 
@@ -15,6 +16,7 @@ import argparse
 import importlib
 import sys
 
+from stillhook.cli._common import check_quantity_options
 from stillhook.errors import StillhookError
 from stillhook.version import __version__
 
@@ -35,12 +37,18 @@ def build_parser() -> argparse.ArgumentParser:
         prog="stillhook",
         description="Design and verify anti-sway command shapers and notch filters for a "
         "two-mode (hook and payload) crane load, and emit fixed-point C for the drive.",
+        epilog="examples:\n  stillhook demo                      # the whole job on the built-in demo project\n"
+               "  stillhook shaper my_crane.toml      # the shaper design for your crane\n"
+               "'stillhook COMMAND --help' ends with examples of that command.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.add_argument("--version", action="version", version=f"stillhook {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
     for name, module in _available_commands():
-        p = sub.add_parser(name, help=module.HELP, description=module.HELP)
+        examples = "examples:\n" + getattr(module, "EXAMPLES", "")
+        p = sub.add_parser(name, help=module.HELP, description=module.HELP, epilog=examples,
+                           formatter_class=argparse.RawDescriptionHelpFormatter)
         module.add_arguments(p)
         p.set_defaults(_run=module.run)
     return parser
@@ -51,6 +59,7 @@ def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     try:
+        check_quantity_options(args)
         return int(args._run(args) or 0)
     except StillhookError as exc:
         print(f"stillhook: error: {exc}", file=sys.stderr)

@@ -17,11 +17,11 @@ def add_scenario_arguments(p: argparse.ArgumentParser, *, many: bool) -> None:
         p.add_argument("--controller", choices=CONTROLLER_CHOICES, default=None,
                        help="run in closed loop with the drive's speed loop and the [sensor]: none (raw command), "
                             "shaper, feedback ([feedback] design) or shaper+feedback")
-    p.add_argument("--initial-sway-rad", type=float, default=0.0, metavar="A",
+    p.add_argument("--initial-sway-rad", type=float, default=0.0, metavar="RAD",
                    help="load released with this sway angle (rad, rope and rigging)")
-    p.add_argument("--gust-n", type=float, default=0.0, metavar="F",
+    p.add_argument("--gust-n", type=float, default=0.0, metavar="N",
                    help="horizontal force on the payload (N), from the end of the operator's command")
-    p.add_argument("--gust-s", type=float, default=0.0, metavar="T", help="how long the force acts (s)")
+    p.add_argument("--gust-s", type=float, default=0.0, metavar="S", help="how long the force acts (s)")
 
 
 def wants_closed_loop(args: argparse.Namespace) -> bool:
@@ -31,7 +31,7 @@ def wants_closed_loop(args: argparse.Namespace) -> bool:
 def scenario_from_args(args: argparse.Namespace, *, include_hoist: bool = True):
     from stillhook.study.controllers import Scenario
 
-    return Scenario(args.distance, include_hoist, args.initial_sway_rad, args.gust_n, args.gust_s)
+    return Scenario(args.distance_m, include_hoist, args.initial_sway_rad, args.gust_n, args.gust_s)
 
 
 def metrics_rows(results: dict) -> tuple[list[str], list[list]]:

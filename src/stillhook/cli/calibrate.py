@@ -11,11 +11,16 @@ HELP = ("fit hook mass, rigging length, rope offset and damping to sway logs; wr
         "project file")
 
 
+EXAMPLES = """  stillhook calibrate demo log_1.csv log_2.csv --out calibrated.toml
+  stillhook calibrate my_crane.toml sway_*.csv --out my_crane_calibrated.toml --free hook_mass_kg,damping_ratio --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("project", metavar="PROJECT.toml", help="project file ('demo' for the built-in one)")
     p.add_argument("logs", nargs="+", metavar="LOG.csv", help="sway logs (time_s, a sway signal, rope_length_m)")
     p.add_argument("--out", required=True, metavar="CALIBRATED.toml", help="calibrated project file to write")
-    p.add_argument("--force", action="store_true", help="overwrite --out when it exists")
+    p.add_argument("--force", action="store_true", help="replace --out when it exists")
     p.add_argument("--free", metavar="KEYS", default=None,
                    help="comma-separated parameters to fit (default hook_mass_kg,rigging_length_m,"
                         "rope_offset_m,damping_ratio); the rest keep the project's values")
@@ -31,6 +36,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
+    from stillhook.cli._common import load_project_arg
     from stillhook.commission.session import (
         calibrate_logs,
         parse_free,
@@ -38,17 +44,12 @@ def run(args: argparse.Namespace) -> int:
         parse_per_log,
         session_cautions,
     )
-    from stillhook.errors import InputFileError
-    from stillhook.outputs import write_files
-    from stillhook.project import demo_project_text, load_project_or_demo
+    from stillhook.outputs import check_out_file, write_file
+    from stillhook.project import demo_project_text
 
-    out = Path(args.out)
-    if out.exists() and not args.force:
-        raise InputFileError(f"{str(out)!r} exists; give --force to overwrite it")
-    if out.is_dir():
-        raise InputFileError(f"{str(out)!r} is a folder; allowed: a file name")
-    project = load_project_or_demo(args.project)
-    text = demo_project_text() if args.project == "demo" else Path(args.project).read_text(encoding="utf-8")
+    out = check_out_file(args.out, force=args.force)
+    project = load_project_arg(args.project)
+    text = demo_project_text() if args.project == "demo" else Path(args.project).read_text(encoding="utf-8-sig")
     names = [Path(p).name for p in args.logs]
     cal, calibrated, results = calibrate_logs(
         project, text, args.logs, free=parse_free(args.free),
@@ -56,7 +57,7 @@ def run(args: argparse.Namespace) -> int:
         scales=parse_mapping(args.scale, "--scale", numbers=True),
         rope_lengths=parse_per_log(args.rope_length_m, "--rope-length-m", names, lo=0.0, lo_ok=False),
         payload_masses=parse_per_log(args.payload_mass_kg, "--payload-mass-kg", names, lo=0.0, lo_ok=True))
-    write_files(out.resolve().parent, {out.name: calibrated})
+    write_file(out, calibrated, force=args.force)
     notes = [n for r in results for n in r.notes] + cal.notes
     warnings = [w for r in results for w in r.log.warnings]
     if args.json:

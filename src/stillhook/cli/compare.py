@@ -7,20 +7,29 @@ import argparse
 from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
+    add_quantity_option,
+    estimate_s,
     format_table,
+    load_project_arg,
     print_bullets,
     print_cautions,
     print_json,
+    say_progress,
 )
 from stillhook.cli._controllers import add_scenario_arguments, metrics_rows, scenario_from_args, wants_closed_loop
 
 HELP = "compare shapers and the notch filter on the project's move (nonlinear simulation, one table)"
 
 
+EXAMPLES = """  stillhook compare demo
+  stillhook compare my_crane.toml --distance-m 12 --no-hoist --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--distance", type=float, metavar="M", default=None,
-                   help="travel distance (m); default: [move] distance_m of the project")
+    add_quantity_option(p, "--distance-m", "distance_m", "travel distance (m); default: [move] distance_m of the "
+                        "project")
     p.add_argument("--no-hoist", action="store_true",
                    help="keep the rope length fixed (ignore [move] hoist_to_m)")
     add_scenario_arguments(p, many=True)
@@ -29,10 +38,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def _run_controllers(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
-    from stillhook.project import load_project_or_demo
     from stillhook.study.controllers import CONTROLLERS, run_controllers
 
-    project = load_project_or_demo(args.project)
+    project = load_project_arg(args.project)
     names = tuple(dict.fromkeys(args.controller or CONTROLLERS))
     scenario = scenario_from_args(args, include_hoist=not args.no_hoist)
     results = run_controllers(project, names, scenario)
@@ -56,17 +64,39 @@ def _cell(value, scale: float = 1.0, fmt: str = ".3g") -> str:
     return "-" if value is None else format(value * scale, fmt)
 
 
+def _over_limits(result, drive: dict) -> list[str]:
+    """Rows whose command exceeds the drive's speed or acceleration limit (a notch can overshoot its input)."""
+    out = []
+    for r in result.rows:
+        for what, value, limit, unit in (("speed", r.peak_speed_m_s, drive["max_speed_m_s"], "m/s"),
+                                         ("acceleration", r.peak_accel_m_s2, drive["max_accel_m_s2"], "m/s2")):
+            if value > limit * (1 + 1e-9):
+                out.append(f"{r.label}: the command reaches {value:.3g} {unit}, {100 * (value / limit - 1):.3g} % "
+                           f"above the drive's {what} limit of {limit:g} {unit}")
+    return out
+
+
 def run(args: argparse.Namespace) -> int:
     if wants_closed_loop(args):
         return _run_controllers(args)
     from stillhook.cautions import CAUTIONS
-    from stillhook.project import load_project_or_demo
     from stillhook.study.compare import compare_project
+    from stillhook.study.ranking import rank_designs, ranking_sentence
 
-    project = load_project_or_demo(args.project)
-    result = compare_project(project, distance_m=args.distance, include_hoist=not args.no_hoist)
+    project = load_project_arg(args.project)
+    from stillhook.sim.dynamics import SETTLE_WINDOW_S
+    from stillhook.sim.profiles import project_move
+
+    cycles = len(project_move(project, args.distance_m)[0]) + SETTLE_WINDOW_S / project.drive["cycle_s"]
+    say_progress(f"designing the filters, then 7 nonlinear simulations of {cycles:.0f} drive cycles "
+                 f"({estimate_s(7, cycles)}, longer for the notch's ring-out)")
+    result = compare_project(project, distance_m=args.distance_m, include_hoist=not args.no_hoist)
+    ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in result.rows
+                           if r.method != "unshaped"], result.tolerance)
     if args.json:
-        print_json({**result.as_dict(), "cautions": list(CAUTIONS)})
+        print_json({**result.as_dict(), "ranking": [r.as_dict() for r in ranked],
+                    "over_drive_limits": _over_limits(result, project.drive),
+                    "verdict": ranking_sentence(ranked, result.tolerance), "cautions": list(CAUTIONS)})
         return 0
     rig = result.rig
     print(f"Comparison on {result.project}: {result.distance_m:.4g} m move, nominal rig "
@@ -85,6 +115,8 @@ def run(args: argparse.Namespace) -> int:
     print("\nadded delay: time the load is at rest minus the unshaped command's end ('-': not at rest in the "
           "window); dur: extra command length (notch: ring-out padding); mean delay: sum A_i t_i or the "
           "notch's group delay at DC; end error: final trolley position minus the distance.")
+    print(f"\nRanking: {ranking_sentence(ranked, result.tolerance)}.")
+    print_bullets("Warnings", _over_limits(result, project.drive))
     print_bullets("Notes", result.notes)
     print_cautions()
     return 0

@@ -11,17 +11,25 @@ HELP = ("run the whole job on the built-in demo project: commissioning logs iden
 _DEFAULT_OUT = "stillhook-demo"
 
 
+EXAMPLES = """  stillhook demo
+  stillhook demo --out /tmp/demo --grid 11 11 --force --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--out", metavar="DIR", default=_DEFAULT_OUT,
-                   help=f"output folder (default ./{_DEFAULT_OUT}); report.html and firmware/ go here")
-    p.add_argument("--grid", type=int, nargs=2, metavar=("NL", "NM"), default=None,
-                   help="envelope sweep grid, rope lengths x payload masses (default 21 21)")
+    from stillhook.cli._common import add_json_argument, add_out_arguments, add_quantity_option
+
+    add_out_arguments(p, required=False, default=_DEFAULT_OUT, what="report.html and firmware/ go here")
+    add_quantity_option(p, "--grid", "grid_points", "envelope sweep grid, rope lengths x payload masses "
+                        "(default 21 21, at most 1000 each)", nargs=2, metavar=("NL", "NM"))
     p.add_argument("--no-selftest", action="store_true",
                    help="do not compile and run the emitted C self-test")
+    add_json_argument(p)
 
 
 def _summary(result, out: str) -> list[str]:
     from stillhook.cautions import CAUTIONS
+    from stillhook.study.ranking import rank_designs, ranking_sentence
 
     st = result.study
     p = st.project
@@ -38,15 +46,27 @@ def _summary(result, out: str) -> list[str]:
     sched = f", length schedule of {len(d.schedule.shapers)} rows" if d.schedule is not None else ""
     lines.append(f"2 design     shaper {d.shaper.name} ({d.shaper.duration_s:.3g} s){sched}")
     lines.append(f"             why: {d.reason}")
+    if st.move_check is not None:
+        lines.append(f"             {st.move_check.sentence()}")
     if st.comparison is not None:
-        cells = [f"{r.method} {r.residual_pct:.3g} %" for r in st.comparison.rows]
-        lines.append("3 comparison residual sway on the project's move (% of unshaped): " + ", ".join(cells))
+        c = st.comparison
+        cells = [f"{r.method} {r.residual_pct:.3g} %"
+                 + ("" if r.added_delay_s is None else f" +{r.added_delay_s:.3g} s") for r in c.rows]
+        lines.append("3 comparison residual sway on the project's move (% of unshaped, + time added): "
+                     + ", ".join(cells))
+        ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in c.rows
+                               if r.method != "unshaped"], c.tolerance)
+        lines.append(f"             {ranking_sentence(ranked, c.tolerance)}")
     if st.sweep is not None:
         tol = 100 * st.sweep.tolerance
         cells = [f"{s['label']}: {100 * s['share_within_tolerance']:.1f} % (worst {100 * s['worst_ratio']:.3g} %)"
                  for k, s in st.sweep.summary().items() if k != "unshaped"]
         g = st.sweep.grid_shape
         lines.append(f"4 sweep      {g[0]} x {g[1]} rigs within {tol:g} % of unshaped: " + "; ".join(cells))
+        summary = st.sweep.summary()
+        ranked = rank_designs([(k, s["label"], s["worst_ratio"], s["added_s"]) for k, s in summary.items()
+                               if k != "unshaped"], st.sweep.tolerance)
+        lines.append(f"             {ranking_sentence(ranked, st.sweep.tolerance)}")
     for stage, msg in sorted(st.problems.items()):
         lines.append(f"  note       {stage}: {msg}")
     plan = st.emit_plan
@@ -89,6 +109,14 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.report.demo import run_demo
 
     result = run_demo(args.out, grid=tuple(args.grid) if args.grid else None, selftest=not args.no_selftest,
-                      progress=stage_printer(sys.stderr.isatty()))
-    print("\n".join(_summary(result, args.out)))
+                      progress=stage_printer(sys.stderr.isatty()), force=args.force)
+    if args.json:
+        from stillhook.cautions import CAUTIONS
+        from stillhook.cli._common import print_json
+
+        print_json({"out": str(args.out), "files": sorted(str(p.relative_to(args.out)) for p in result.written),
+                    "selftest": result.selftest, "problems": dict(sorted(result.study.problems.items())),
+                    "summary": _summary(result, args.out)[:-len(CAUTIONS) - 2], "cautions": list(CAUTIONS)})
+    else:
+        print("\n".join(_summary(result, args.out)))
     return 0 if result.selftest.get("passed") is not False else 1

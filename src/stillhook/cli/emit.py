@@ -5,15 +5,26 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, print_cautions, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_out_arguments,
+    add_project_argument,
+    load_project_arg,
+    print_cautions,
+    print_json,
+)
 
 HELP = "generate fixed-point C for the drive (default) or IEC 61131-3 Structured Text for a PLC (--target st)"
 
 
+EXAMPLES = """  stillhook emit demo --out sway_c
+  stillhook emit my_crane.toml --target st --out plc_sway --format q31 --prefix trolley --force
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--out", required=True, metavar="DIR",
-                   help="output folder (created; files are written all at once or not at all)")
+    add_out_arguments(p, required=True, what="the C folder")
     p.add_argument("--target", choices=("c", "st"), default="c",
                    help="c: tables + portable C99 runtime + host self-test (default); st: IEC 61131-3 Structured "
                         "Text function blocks + PLCopen XML + README, same integers as the C runtime")
@@ -21,16 +32,20 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="sample format; given here it is used as is (a notch that fails it is refused), "
                         "default [firmware] format (Q15 may move to Q31 for a notch)")
     p.add_argument("--prefix", metavar="NAME", default=None,
-                   help="prefix of the C tables / ST blocks and of the file names (default [firmware] prefix, 'sway')")
+                   help="prefix of the C tables / ST blocks and of the file names (default [firmware] prefix, "
+                        "'sway'; a C identifier starting with a letter, not a keyword, not starting with 'shk')")
     add_json_argument(p)
 
 
 def run(args: argparse.Namespace) -> int:
+    from stillhook.checks import check_identifier
     from stillhook.firmware.plan import write_emit
-    from stillhook.project import load_project_or_demo
 
-    project = load_project_or_demo(args.project)
-    plan, written = write_emit(project, args.out, target=args.target, fmt=args.format, prefix=args.prefix)
+    if args.prefix is not None:
+        check_identifier("--prefix", args.prefix)
+    project = load_project_arg(args.project)
+    plan, written = write_emit(project, args.out, target=args.target, fmt=args.format, prefix=args.prefix,
+                               force=args.force)
     sizes = plan.sizes()
     if args.json:
         from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS

@@ -4,9 +4,21 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_bullets, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_project_argument,
+    format_table,
+    load_project_arg,
+    print_bullets,
+    print_json,
+)
 
 HELP = "design closed-loop sway damping from the [sensor] (observer + LQR per rope-length row) and check it"
+
+
+EXAMPLES = """  stillhook feedback demo
+  stillhook feedback my_crane.toml --json
+"""
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -18,9 +30,7 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
     from stillhook.feedback.robust import MIN_DELAY_MARGIN_CYCLES, MIN_GAIN_MARGIN_DB, feedback_for_project
     from stillhook.feedback.robustness import check_envelope
-    from stillhook.project import load_project_or_demo
-
-    project = load_project_or_demo(args.project)
+    project = load_project_arg(args.project)
     design = feedback_for_project(project)
     check = check_envelope(design, project.envelope, project.feedback["min_damping_ratio"])
     cautions = list(CAUTIONS) + list(FEEDBACK_CAUTIONS)

@@ -4,9 +4,22 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, format_table, print_bullets, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_out_arguments,
+    add_quantity_option,
+    format_table,
+    load_project_arg,
+    print_bullets,
+    print_json,
+)
 
 HELP = "identify the sway modes (frequency, damping ratio, with standard deviations) in a sway log CSV"
+
+
+EXAMPLES = """  stillhook identify sway_log.csv --project demo
+  stillhook identify sway_log.csv --window-s 10 50 --rope-length-m 6.2 --out identified --json
+"""
 
 
 def add_log_options(p: argparse.ArgumentParser) -> None:
@@ -22,15 +35,13 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--project", metavar="PROJECT.toml", default=None,
                    help="project ('demo' for the built-in one): narrows the search, numbers the modes, says "
                         "which predicted mode is not observable")
-    p.add_argument("--window", type=float, nargs=2, metavar=("START", "END"), default=None,
-                   help="use only this time window (s) instead of the free-sway segments found")
-    p.add_argument("--rope-length-m", type=float, metavar="M", default=None,
-                   help="rope length for a log without a rope_length_m column")
-    p.add_argument("--payload-mass-kg", type=float, metavar="KG", default=None,
-                   help="payload mass for a log without a payload_mass_kg column")
+    add_quantity_option(p, "--window-s", "window_s", "use only this time window (s) instead of the free-sway "
+                        "segments found", nargs=2, metavar=("S_START", "S_END"))
+    add_quantity_option(p, "--rope-length-m", "rope_length_m", "rope length for a log without a rope_length_m column")
+    add_quantity_option(p, "--payload-mass-kg", "payload_mass_kg", "payload mass for a log without a "
+                        "payload_mass_kg column")
     add_log_options(p)
-    p.add_argument("--out", metavar="DIR", default=None,
-                   help="write identify.json and one figure per segment (PNG, SVG) into DIR")
+    add_out_arguments(p, required=False, what="write identify.json and one figure per segment (PNG, SVG) into DIR")
     add_json_argument(p)
 
 
@@ -45,14 +56,12 @@ def run(args: argparse.Namespace) -> int:
         session_cautions,
     )
     from stillhook.outputs import check_out_dir, to_json, write_files
-    from stillhook.project import load_project_or_demo
-
-    project = load_project_or_demo(args.project) if args.project is not None else None
+    project = load_project_arg(args.project) if args.project is not None else None
     if args.out is not None:
-        check_out_dir(args.out)
+        check_out_dir(args.out, force=args.force)
     name = Path(args.log).name
     per_log = {k: {name: v} for k, v in (("rope", args.rope_length_m), ("mass", args.payload_mass_kg)) if v is not None}
-    (result,) = identify_logs([args.log], envelope=project.envelope if project else None, window_s=args.window,
+    (result,) = identify_logs([args.log], envelope=project.envelope if project else None, window_s=args.window_s,
                               columns=parse_mapping(args.column, "--column", numbers=False),
                               scales=parse_mapping(args.scale, "--scale", numbers=True),
                               rope_lengths=per_log.get("rope"), payload_masses=per_log.get("mass"))
@@ -63,7 +72,7 @@ def run(args: argparse.Namespace) -> int:
         figs = {f"segment_{i + 1}": segment_figure_data(name, i, s) for i, s in enumerate(result.segments)}
         files = {f"figures/{k}": v for k, v in figure_files(figs).items()}
         files["identify.json"] = to_json(data)
-        write_files(args.out, files)
+        write_files(args.out, files, force=args.force)
     if args.json:
         print_json(data)
         return 0

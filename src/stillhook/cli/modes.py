@@ -4,49 +4,58 @@ from __future__ import annotations
 
 import argparse
 
-from stillhook.cli._common import add_json_argument, add_project_argument, format_table, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_project_argument,
+    add_quantity_option,
+    format_table,
+    load_project_arg,
+    print_json,
+)
 
 HELP = "sway modes of the hook and payload (frequencies, shapes, participation, bands over the envelope)"
 
-_RIG_OPTIONS = (("hook_mass", "KG", "hook block mass m1 (kg, > 0)"),
-                ("payload_mass", "KG", "payload mass m2 (kg, >= 0)"),
-                ("rope_length", "M", "hoist rope length L1, trolley to hook (m, > 0)"),
-                ("rigging_length", "M", "rigging length L2, hook to payload centre of mass (m, >= 0)"))
+EXAMPLES = """  stillhook modes demo
+  stillhook modes --hook-mass-kg 340 --payload-mass-kg 150 --rope-length-m 5 --rigging-length-m 3.1 --json
+"""
+
+_RIG_OPTIONS = (("hook_mass_kg", "hook block mass m1 (kg, 1 to 500000)"),
+                ("payload_mass_kg", "payload mass m2 (kg, 0 to 2e7)"),
+                ("rope_length_m", "hoist rope length L1, trolley to hook (m, 0.1 to 1000)"),
+                ("rigging_length_m", "rigging length L2, hook to payload centre of mass (m, 0 to 100)"))
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p, optional=True)
-    for name, metavar, text in _RIG_OPTIONS:
-        p.add_argument("--" + name.replace("_", "-"), type=float, metavar=metavar, help=text)
-    p.add_argument("--gravity", type=float, metavar="G", default=None, help="gravity (m/s^2, default 9.80665)")
-    p.add_argument("--damping", type=float, metavar="Z", default=None,
-                   help="modal damping ratio (0 <= Z < 1, default 0)")
+    for name, text in _RIG_OPTIONS:
+        add_quantity_option(p, "--" + name.replace("_", "-"), name, text)
+    add_quantity_option(p, "--gravity-m-s2", "gravity_m_s2", "gravity (m/s2, default 9.80665)")
+    add_quantity_option(p, "--damping-ratio", "damping_ratio", "modal damping ratio (0 to 0.7, default 0)")
     add_json_argument(p)
 
 
 def run(args: argparse.Namespace) -> int:
     from stillhook.errors import ConfigError
     from stillhook.model.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig
-    from stillhook.project import load_project_or_demo
 
-    given = [n for n, _, _ in _RIG_OPTIONS if getattr(args, n) is not None]
+    given = [n for n, _ in _RIG_OPTIONS if getattr(args, n) is not None]
     bands = None
     if args.project is not None:
-        if given or args.gravity is not None or args.damping is not None:
-            raise ConfigError("give a project file or rig options (--hook-mass ...), not both")
-        project = load_project_or_demo(args.project)
+        if given or args.gravity_m_s2 is not None or args.damping_ratio is not None:
+            raise ConfigError("give a project file or rig options (--hook-mass-kg ...), not both")
+        project = load_project_arg(args.project)
         env = project.envelope
         rig = env.nominal_rig
         bands = env.mode_bands_hz()
         envelope = env.describe()
     else:
-        missing = [n for n, _, _ in _RIG_OPTIONS if n not in given]
+        missing = [n for n, _ in _RIG_OPTIONS if n not in given]
         if missing:
             raise ConfigError("missing " + ", ".join("--" + n.replace("_", "-") for n in missing)
                               + "; give them all, or a project file")
-        rig = Rig(args.hook_mass, args.payload_mass, args.rope_length, args.rigging_length,
-                  STANDARD_GRAVITY_M_S2 if args.gravity is None else args.gravity,
-                  DEFAULT_DAMPING_RATIO if args.damping is None else args.damping)
+        rig = Rig(args.hook_mass_kg, args.payload_mass_kg, args.rope_length_m, args.rigging_length_m,
+                  STANDARD_GRAVITY_M_S2 if args.gravity_m_s2 is None else args.gravity_m_s2,
+                  DEFAULT_DAMPING_RATIO if args.damping_ratio is None else args.damping_ratio)
         envelope = None
     modes = rig.modes()
     out = {

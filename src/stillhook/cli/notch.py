@@ -7,7 +7,9 @@ import argparse
 from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
+    add_quantity_option,
     format_table,
+    load_project_arg,
     print_bullets,
     print_json,
 )
@@ -15,18 +17,23 @@ from stillhook.cli._common import (
 HELP = "notch filters at the sway modes for the drive cycle (second-order sections, fixed-point check)"
 
 
+EXAMPLES = """  stillhook notch demo
+  stillhook notch --frequency-hz 0.64 --frequency-hz 1.9 --cycle-s 0.005 --width-hz 0.1 --json
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p, optional=True)
-    p.add_argument("--frequency-hz", type=float, action="append", metavar="F",
-                   help="notch frequency (Hz); repeat for the second mode")
-    p.add_argument("--cycle-s", type=float, metavar="TS", help="drive cycle = filter sample period (s)")
-    p.add_argument("--width-hz", type=float, action="append", metavar="W",
-                   help="notch width 2 zeta_p f0 (Hz), once for all or once per frequency "
-                        "(default: wide enough for the tolerance over the mode's band, or over +-10 %%)")
-    p.add_argument("--depth-db", type=float, action="append", metavar="D",
-                   help="depth at the centre (dB > 0), once for all or once per frequency (default: a true null)")
-    p.add_argument("--tolerance-pct", type=float, metavar="PCT", default=None,
-                   help="residual sway allowed over each band (%%, default 5, or the project's)")
+    add_quantity_option(p, "--frequency-hz", "frequency_hz", "notch frequency (Hz); repeat for the second mode",
+                        action="append")
+    add_quantity_option(p, "--cycle-s", "cycle_s", "drive cycle = filter sample period (s)")
+    add_quantity_option(p, "--width-hz", "width_hz", "notch width 2 zeta_p f0 (Hz), once for all or once per "
+                        "frequency (default: wide enough for the tolerance over the mode's band, or over +-10 %%)",
+                        action="append")
+    add_quantity_option(p, "--depth-db", "depth_db", "depth at the centre (dB), once for all or once per frequency "
+                        "(default: a true null)", action="append")
+    add_quantity_option(p, "--tolerance-pct", "tolerance_pct", "residual sway allowed over each band (%%, default "
+                        "5, or the project's)")
     add_json_argument(p)
 
 
@@ -40,22 +47,26 @@ def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.errors import ConfigError
     from stillhook.notch.design import design_notches, notch_for_project
-    from stillhook.project import load_project_or_demo
 
+    for flag, values in (("--width-hz", args.width_hz), ("--depth-db", args.depth_db)):
+        n = len(args.frequency_hz or ()) or 2
+        if values is not None and len(values) not in (1, n) and args.frequency_hz:
+            raise ConfigError(f"{flag} given {len(values)} times for {n} notch frequencies; allowed: once for all "
+                              "or once per --frequency-hz")
     width, depth = _one_or_list(args.width_hz), _one_or_list(args.depth_db)
     source = {}
     if args.project is not None:
         if args.frequency_hz or args.cycle_s is not None:
             raise ConfigError("give a project file or --frequency-hz/--cycle-s, not both")
-        project = load_project_or_demo(args.project)
-        tol = None if args.tolerance_pct is None else _tolerance(args.tolerance_pct)
+        project = load_project_arg(args.project)
+        tol = None if args.tolerance_pct is None else args.tolerance_pct / 100.0
         design = notch_for_project(project, width_hz=width, depth_db=depth, tolerance=tol)
         source = {"project": project.name, "project_sha256": project.digest,
                   "bands_hz": [list(b) for b in project.envelope.mode_bands_hz()]}
     else:
         if not args.frequency_hz or args.cycle_s is None:
             raise ConfigError("give --frequency-hz F (repeat for a second mode) and --cycle-s TS, or a project file")
-        tol = 0.05 if args.tolerance_pct is None else _tolerance(args.tolerance_pct)
+        tol = 0.05 if args.tolerance_pct is None else args.tolerance_pct / 100.0
         design = design_notches(args.frequency_hz, args.cycle_s, width_hz=width, depth_db=depth, tolerance=tol)
     out = {**source, **design.as_dict(), "cautions": list(CAUTIONS)}
     if args.json:
@@ -63,14 +74,6 @@ def run(args: argparse.Namespace) -> int:
         return 0
     _print_text(design, source, CAUTIONS)
     return 0
-
-
-def _tolerance(pct: float) -> float:
-    from stillhook.errors import ConfigError
-
-    if not 0.0 < pct < 100.0:
-        raise ConfigError(f"--tolerance-pct {pct:g} is out of range; allowed: 0 < PCT < 100")
-    return pct / 100.0
 
 
 def _print_text(design, source: dict, cautions) -> None:

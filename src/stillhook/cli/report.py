@@ -5,20 +5,30 @@ from __future__ import annotations
 import argparse
 import sys
 
-from stillhook.cli._common import add_json_argument, add_project_argument, print_json
+from stillhook.cli._common import (
+    add_json_argument,
+    add_out_arguments,
+    add_project_argument,
+    add_quantity_option,
+    load_project_arg,
+    print_json,
+)
 
 HELP = "write the design report: report.html (self-contained), report.json and figures/ (PNG, SVG)"
 
 
+EXAMPLES = """  stillhook report demo --out demo_report
+  stillhook report my_crane.toml --out report --grid 11 11 --no-check --force
+"""
+
+
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--out", required=True, metavar="DIR",
-                   help="output folder (created; files are written all at once or not at all)")
-    p.add_argument("--grid", type=int, nargs=2, metavar=("NL", "NM"), default=None,
-                   help="envelope sweep grid, rope lengths x payload masses (default 21 21)")
-    p.add_argument("--distance", type=float, metavar="M", default=None,
-                   help="travel distance of the envelope sweep's trapezoid (m, default 6); the comparison "
-                        "uses the project's own move")
+    add_out_arguments(p, required=True, what="the report folder")
+    add_quantity_option(p, "--grid", "grid_points", "envelope sweep grid, rope lengths x payload masses "
+                        "(default 21 21, at most 1000 each)", nargs=2, metavar=("NL", "NM"))
+    add_quantity_option(p, "--distance-m", "distance_m", "travel distance of the envelope sweep's move (m, "
+                        "default: [move] distance_m); the comparison uses the project's own move")
     p.add_argument("--no-check", action="store_true",
                    help="skip the sweep's nonlinear spot checks at the envelope corners")
     add_json_argument(p)
@@ -37,13 +47,13 @@ def stage_printer(enabled: bool):
 
 
 def run(args: argparse.Namespace) -> int:
-    from stillhook.project import load_project_or_demo
     from stillhook.report.folder import write_report
     from stillhook.report.study import REPORT_GRID
 
-    project = load_project_or_demo(args.project)
+    project = load_project_arg(args.project)
     grid = tuple(args.grid) if args.grid else REPORT_GRID
-    study, written = write_report(project, args.out, grid=grid, distance_m=args.distance, check=not args.no_check,
+    study, written = write_report(project, args.out, grid=grid, distance_m=args.distance_m, check=not args.no_check,
+                                  force=args.force,
                                   progress=stage_printer(not args.json and sys.stderr.isatty()))
     names = sorted(str(p.relative_to(args.out)) for p in written)
     if args.json:

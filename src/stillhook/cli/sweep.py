@@ -8,29 +8,33 @@ import sys
 from stillhook.cli._common import (
     add_json_argument,
     add_project_argument,
+    add_quantity_option,
     format_table,
+    load_project_arg,
     print_cautions,
     print_json,
 )
 
 HELP = "residual sway of the unshaped move and of each design over the whole envelope (fast linear sweep)"
 
-#: Mirrors stillhook.study.sweep.DEFAULT_DISTANCE_M / DEFAULT_GRID (kept here so --help imports nothing heavy).
-_DEFAULT_DISTANCE_M = 6.0
+#: Mirrors stillhook.study.sweep.DEFAULT_GRID (kept here so --help imports nothing heavy).
 _DEFAULT_GRID = (21, 21)
+
+EXAMPLES = """  stillhook sweep demo
+  stillhook sweep my_crane.toml --grid 41 41 --designs shaper,notch --json
+"""
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     add_project_argument(p)
-    p.add_argument("--grid", type=int, nargs=2, metavar=("NL", "NM"), default=None,
-                   help=f"rope lengths x payload masses, evenly spaced over the envelope "
-                        f"(default {_DEFAULT_GRID[0]} {_DEFAULT_GRID[1]})")
-    p.add_argument("--samples", type=int, metavar="N", default=None,
-                   help="N random rigs drawn uniformly over the envelope instead of a grid")
-    p.add_argument("--seed", type=int, default=0, help="random seed for --samples (default 0)")
-    p.add_argument("--distance", type=float, metavar="M", default=None,
-                   help=f"travel distance of the rest-to-rest trapezoid at the drive's max speed and "
-                        f"acceleration, rope length held (m, default {_DEFAULT_DISTANCE_M:g})")
+    add_quantity_option(p, "--grid", "grid_points", f"rope lengths x payload masses, evenly spaced over the envelope "
+                        f"(default {_DEFAULT_GRID[0]} {_DEFAULT_GRID[1]}, at most 1000 each; a range of one value "
+                        "gets one point)", nargs=2, metavar=("NL", "NM"))
+    add_quantity_option(p, "--samples", "random_rigs", "N random rigs drawn uniformly over the envelope instead of "
+                        "a grid")
+    add_quantity_option(p, "--seed", "seed", "random seed for --samples (default 0)", default=0)
+    add_quantity_option(p, "--distance-m", "distance_m", "travel distance of the move (m); default: [move] "
+                        "distance_m with the project's [move] profile, rope length held")
     p.add_argument("--designs", metavar="LIST", default=None,
                    help="comma-separated designs to sweep, of unshaped, shaper, schedule, notch (default all; "
                         "unshaped is always included)")
@@ -57,21 +61,25 @@ class Progress:
 def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.errors import ConfigError
-    from stillhook.project import load_project_or_demo
+    from stillhook.study.ranking import rank_designs, ranking_sentence
     from stillhook.study.sweep import DEFAULT_GRID, DESIGN_KEYS, sweep_project
 
     if args.grid is not None and args.samples is not None:
         raise ConfigError("give --grid or --samples, not both")
     keys = DESIGN_KEYS if args.designs is None else tuple(k.strip() for k in args.designs.split(",") if k.strip())
-    project = load_project_or_demo(args.project)
+    project = load_project_arg(args.project)
     show = not args.json and sys.stderr.isatty()
     if show and any(k in keys for k in ("shaper", "schedule", "notch")):
         sys.stderr.write("sweep: designing the filters ...\n")
     result = sweep_project(project, grid=tuple(args.grid) if args.grid else DEFAULT_GRID, samples=args.samples,
-                           seed=args.seed, distance_m=args.distance, keys=keys, check=not args.no_check,
+                           seed=args.seed, distance_m=args.distance_m, keys=keys, check=not args.no_check,
                            progress=Progress(sys.stderr) if show else None)
+    summary = result.summary()
+    ranked = rank_designs([(k, s["label"], s["worst_ratio"], s["added_s"]) for k, s in summary.items()
+                           if k != "unshaped"], result.tolerance)
     if args.json:
         print_json({"project": project.name, "input_digest_sha256": project.digest, **result.as_dict(),
+                    "ranking": [r.as_dict() for r in ranked], "verdict": ranking_sentence(ranked, result.tolerance),
                     "cautions": list(CAUTIONS)})
         return 0
     mv, env = result.move, project.envelope
@@ -79,11 +87,11 @@ def run(args: argparse.Namespace) -> int:
     rigs = (f"{result.grid_shape[0]} x {result.grid_shape[1]} grid" if result.grid_shape
             else f"{result.rope_length_m.size} random rigs (seed {args.seed})")
     print(f"Sweep of {project.name}: {rigs} over rope {L0:g}-{L1:g} m x payload {m0:g}-{m1:g} kg; "
-          f"{mv['distance_m']:g} m trapezoid at {mv['max_speed_m_s']:g} m/s, {mv['max_accel_m_s2']:g} m/s2, "
+          f"{mv['distance_m']:g} m {mv['profile']} at {mv['max_speed_m_s']:g} m/s, {mv['max_accel_m_s2']:g} m/s2, "
           f"rope held; residual = peak |payload offset| over {mv['settle_window_s']:g} s after the command ends.")
     tol = result.tolerance
     rows = []
-    for s in result.summary().values():
+    for s in summary.values():
         at = s["worst_residual_at"]
         worst_mm = 1000 * s["worst_residual_m"]
         rows.append([s["label"], s["added_s"], f"{worst_mm:.0f}" if worst_mm >= 100 else f"{worst_mm:.3g}",
@@ -96,6 +104,7 @@ def run(args: argparse.Namespace) -> int:
         print(f"\nAccuracy: exact on the linear model. At the {len(result.spot_checks)} corners the nonlinear "
               f"simulator agrees within {100 * result.max_disagreement():.2g} % of the unshaped residual "
               f"({100 * result.max_disagreement_of_peak():.2g} % of the peak sway during the move; {checked}).")
+    print(f"\nRanking (worst case over the envelope): {ranking_sentence(ranked, result.tolerance)}.")
     for n in result.notes:
         print(f"Note: {n}")
     print_cautions()

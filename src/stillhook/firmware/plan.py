@@ -36,6 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
+from stillhook.checks import check_identifier
 from stillhook.errors import ConfigError, EmitError
 from stillhook.feedback.robust import feedback_for_project
 from stillhook.feedback.robustness import check_envelope
@@ -50,8 +51,7 @@ from stillhook.firmware.selftest import render_selftest
 from stillhook.firmware.shaper_model import SLOT_BYTES, SLOT_SHIFT, ShaperTable, abs_sum_limit, switch_transient
 from stillhook.model.lookup import LOOKUP_RULES, lookup_thresholds, rope_length_counts
 from stillhook.notch.design import notch_for_project
-from stillhook.outputs import to_json, write_files
-from stillhook.project import SCHEMA
+from stillhook.outputs import check_out_dir, to_json, write_files
 from stillhook.shaping.envelope_design import schedule_for_project
 from stillhook.version import __version__
 
@@ -207,15 +207,6 @@ class EmitPlan:
         return out
 
 
-def _check_prefix(prefix: str) -> str:
-    ok = (isinstance(prefix, str) and 1 <= len(prefix) <= 24 and prefix.isascii()
-          and (prefix[0].isalpha() or prefix[0] == "_") and all(c.isalnum() or c == "_" for c in prefix))
-    if not ok or prefix.lower().startswith("shk_"):
-        raise ConfigError(f"prefix {prefix!r} is not allowed; allowed: {SCHEMA['firmware']['prefix'].allowed()}, "
-                          "not starting with 'shk_' (the runtime's own names)")
-    return prefix
-
-
 def notch_requested(project) -> bool:
     """``[firmware] notch`` if set, else whether the project file has a ``[notch]`` section (even empty)."""
     flag = project.firmware.get("notch")
@@ -255,7 +246,7 @@ def plan_for_project(project, *, fmt: str | None = None, prefix: str | None = No
     fmt_requested = fmt if forced else fw["format"]
     if fmt_requested not in FRACTION_BITS:
         raise ConfigError(f"format {fmt_requested!r} is not allowed; allowed: 'q15', 'q31'")
-    prefix = _check_prefix(prefix if prefix is not None else fw["prefix"])
+    prefix = check_identifier("prefix", prefix if prefix is not None else fw["prefix"])
     cycle_s = float(project.drive["cycle_s"])
     if schedule is None:
         schedule = schedule_for_project(project)
@@ -384,8 +375,9 @@ def emit_files(project, *, target: str = "c", **options) -> dict[str, str]:
     return render_target(plan_for_project(project, **options), target)
 
 
-def write_emit(project, out_dir, *, target: str = "c", **options) -> tuple[EmitPlan, list[Path]]:
-    """Emit into ``out_dir``: every file is written to a temporary folder first, then moved.
+def write_emit(project, out_dir, *, target: str = "c", force: bool = False,
+               **options) -> tuple[EmitPlan, list[Path]]:
+    """Emit into ``out_dir`` (checked before any work; see :mod:`stillhook.outputs` for ``force``).
 
     Parameters
     ----------
@@ -396,10 +388,11 @@ def write_emit(project, out_dir, *, target: str = "c", **options) -> tuple[EmitP
     -------
     (plan, written paths)
     """
+    check_out_dir(out_dir, force=force)
     render = _renderer(target)  # an unknown target or a prefix it cannot use is refused before the design work
     if target in _PREFIX_RULES:
-        _PREFIX_RULES[target](_check_prefix(prefix if (prefix := options.get("prefix")) is not None
-                                            else project.firmware["prefix"]))
+        _PREFIX_RULES[target](check_identifier("prefix", prefix if (prefix := options.get("prefix")) is not None
+                                               else project.firmware["prefix"]))
     plan = plan_for_project(project, **options)
     files = render(plan)
-    return plan, write_files(out_dir, files)
+    return plan, write_files(out_dir, files, force=force)

@@ -12,11 +12,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from stillhook.checks import finite_number
+from stillhook.checks import check_quantity
 from stillhook.errors import RigError
 from stillhook.model.rig import DEFAULT_DAMPING_RATIO, STANDARD_GRAVITY_M_S2, Rig, mode_frequencies_rad_s
 
-__all__ = ["Envelope"]
+__all__ = ["Envelope", "MIN_BAND_EDGE_RATIO"]
+
+
+#: Narrowest band a design covers, as the ratio of its upper edge to its centre (common practice, no source:
+#: +-10 % of frequency is about +-20 % of rope length).
+MIN_BAND_EDGE_RATIO = 1.1
 
 
 @dataclass(frozen=True)
@@ -52,14 +57,12 @@ class Envelope:
 
     def __post_init__(self) -> None:
         for name in ("rope_length_range_m", "payload_mass_range_kg"):
-            lo, hi = (float(v) for v in getattr(self, name))
-            if not (math.isfinite(lo) and math.isfinite(hi)):
-                raise RigError(f"{name} = [{lo:g}, {hi:g}] is not finite; allowed: finite numbers, min <= max")
+            quantity = name.replace("_range", "")
+            lo, hi = (check_quantity(quantity, v, name=name, error=RigError) for v in getattr(self, name))
             if lo > hi:
                 raise RigError(f"{name} = [{lo:g}, {hi:g}] has min > max; allowed: min <= max")
             object.__setattr__(self, name, (lo, hi))
-        object.__setattr__(self, "rope_offset_m", finite_number(
-            "rope_offset_m", self.rope_offset_m, allowed="a finite number (m)", error=RigError))
+        object.__setattr__(self, "rope_offset_m", check_quantity("rope_offset_m", self.rope_offset_m, error=RigError))
         if self.rope_length_range_m[0] + self.rope_offset_m <= 0.0:
             raise RigError(f"rope_offset_m = {self.rope_offset_m:g} makes the pendulum length at the shortest rope "
                            f"({self.rope_length_range_m[0]:g} m) not positive; allowed: rope length + offset > 0")
@@ -135,6 +138,20 @@ class Envelope:
         """
         F = self.frequency_map_hz(*self.grid(n_rope, n_payload))
         return [(float(F[..., i].min()), float(F[..., i].max())) for i in range(F.shape[-1])]
+
+    def design_bands_hz(self, n_rope: int = 61, n_payload: int = 61, *,
+                        min_edge_ratio: float = MIN_BAND_EDGE_RATIO) -> list[tuple[float, float]]:
+        """The bands every design covers: each mode's band joined with [c / r, c r] around its geometric centre c.
+
+        r = ``min_edge_ratio``, default :data:`MIN_BAND_EDGE_RATIO` (1.1, about +-10 %): a narrow or one-point
+        envelope still gets a band for the uncertainty of the model (rope stretch, the payload's centre of
+        mass), the same in the shaper design, the notch and the comparison.
+        """
+        out = []
+        for lo, hi in self.mode_bands_hz(n_rope, n_payload):
+            c = math.sqrt(lo * hi)
+            out.append((min(lo, c / min_edge_ratio), max(hi, c * min_edge_ratio)))
+        return out
 
     def describe(self) -> dict:
         """JSON-ready summary of the envelope."""

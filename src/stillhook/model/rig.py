@@ -39,7 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg import eigh
 
-from stillhook.checks import finite_number
+from stillhook.checks import check_quantity
 from stillhook.errors import RigError
 
 __all__ = ["DEFAULT_DAMPING_RATIO", "Mode", "Rig", "STANDARD_GRAVITY_M_S2", "mode_frequencies_rad_s"]
@@ -106,17 +106,19 @@ class Rig:
 
     Parameters
     ----------
-    hook_mass_kg : float > 0
+    hook_mass_kg : float in [1, 5e5]
         Hook block mass m1.
-    payload_mass_kg : float >= 0
+    payload_mass_kg : float in [0, 2e7]
         Payload mass m2 (0: no payload, a single pendulum).
-    rope_length_m : float > 0
+    rope_length_m : float in [0.1, 1000]
         Hoist rope length L1, suspension point on the trolley to the hook.
-    rigging_length_m : float >= 0
+    rigging_length_m : float in [0, 100]
         Rigging length L2, hook to payload centre of mass (0: payload at the hook).
-    gravity_m_s2 : float > 0, default 9.80665
-    damping_ratio : float in [0, 1), default 0
+    gravity_m_s2 : float in [1, 30], default 9.80665
+    damping_ratio : float in [0, 0.7], default 0
         Modal damping ratio applied to every mode.
+
+    The ranges are :data:`stillhook.checks.LIMITS` (plausibility bounds with their reasons).
     """
 
     hook_mass_kg: float
@@ -127,18 +129,10 @@ class Rig:
     damping_ratio: float = DEFAULT_DAMPING_RATIO
 
     def __post_init__(self) -> None:
-        checks = (  # name, lower bound included?, upper bound
-            ("hook_mass_kg", False, None, "a finite number > 0"),
-            ("payload_mass_kg", True, None, "a finite number >= 0"),
-            ("rope_length_m", False, None, "a finite number > 0"),
-            ("rigging_length_m", True, None, "a finite number >= 0"),
-            ("gravity_m_s2", False, None, "a finite number > 0"),
-            ("damping_ratio", True, 1.0, "a finite number in [0, 1)"),
-        )
-        for name, lo_ok, hi, allowed in checks:
-            value = finite_number(name, getattr(self, name), allowed=allowed, error=RigError,
-                                  lo=0.0, lo_ok=lo_ok, hi=hi, hi_ok=False)
-            object.__setattr__(self, name, value)
+        # plausibility bounds and their reasons: stillhook.checks.LIMITS (the same for project keys and options)
+        for name in ("hook_mass_kg", "payload_mass_kg", "rope_length_m", "rigging_length_m", "gravity_m_s2",
+                     "damping_ratio"):
+            object.__setattr__(self, name, check_quantity(name, getattr(self, name), error=RigError))
 
     # -- structure -----------------------------------------------------------------------
     @property

@@ -6,10 +6,25 @@ Each sway mode gets one continuous notch
 
 with DC gain 1, |H| <= 1 everywhere (zeta_z < zeta_p), and |H(j w)| = zeta_z / zeta_p at the centre:
 the depth is ``depth_db = 20 log10(zeta_p / zeta_z)`` (infinite for zeta_z = 0, the default: a true
-null). The width is ``width_hz = 2 zeta_p f0``, which is the -3 dB width of the infinitely deep notch
-for any zeta_p. The sections of all modes are cascaded.
+null). The sections of all modes are cascaded.
 
-Width rule (when ``width_hz`` is not given): cover the mode's band at the tolerance. For an undamped
+Width: ``width_hz`` is the -3 dB width of the DIGITAL filter (hi - lo of the two frequencies where
+|H| = 1/sqrt 2), stated and taken in that meaning, so it equals what the discretized filter has. With
+t0 = tan(pi f0 T) and the edges at t0 r and t0 / r in the prewarped scale, |H|^2 = 1/2 at
+sqrt(u) = (r - 1/r)/2 = zeta_p sqrt(1 - 2 d^2) (d = zeta_z / zeta_p, below), and
+
+    tan(pi T width_hz) = (t0 r - t0 / r) / (1 + t0^2) = 2 sqrt(u) t0 / (1 + t0^2)
+
+(tan of a difference). For f << 1/T this is the analog width 2 zeta_p f0 sqrt(1 - 2 d^2). It matches
+scipy.signal.iirnotch, whose Q is f0 over the same digital -3 dB width (Orfanidis 1996, section 11.3).
+
+Default width rules (``width_rule``):
+
+- ``"band"`` (default): the -3 dB edges sit on the mode's band edges: the notch covers the band over the
+  envelope and no more. Inside a wide band the residual sway can reach 71 % at the edges; the design says
+  so (``band_worst_residual`` and a warning when above the tolerance). A notch that must hold the
+  tolerance over a wide band becomes a slow low-pass filter; a band shaper does that job better.
+- ``"tolerance"``: cover the mode's band at the tolerance. For an undamped
 mode the residual sway left by a filtered command, as a fraction of the unfiltered one, is exactly
 |H| at the mode's frequency, so the notch is made just wide enough that |H| <= tolerance at both
 band edges. With r = f/f0 and u = ((1 - r^2) / (2 r))^2,
@@ -24,7 +39,7 @@ The edges are taken in the prewarped (Tustin) frequency scale, r = tan(pi f T) /
 digital filter meets the tolerance at the edges exactly. A band is never taken narrower than +-10 %
 around the notch (r_e >= 1.1, room for model error; our choice), which is also the default band when
 only frequencies are given. ``notch_for_project`` centres each notch in its band (geometric mean in
-the prewarped scale, where |H| is symmetric). Wide bands make wide notches: beyond
+the prewarped scale, where |H| is symmetric). With ``"tolerance"``, wide bands make wide notches: beyond
 ``max_pole_damping`` (default 20, an over-damped pole pair whose slow pole has a time constant of
 about 2 zeta_p / w, several sway periods) the width is capped and a warning gives the band's worst
 residual. An infinite depth always needs the least width, hence the default.
@@ -56,17 +71,25 @@ import math
 
 import numpy as np
 
+from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import ConfigError, DesignError
 from stillhook.fixed_point import FRACTION_BITS
+from stillhook.model.envelope import MIN_BAND_EDGE_RATIO
 from stillhook.notch.cascade import TAIL_DECAY, NotchDesign, NotchSection, sos_response
 from stillhook.notch.rounding import NotchShift, auto_post_shift, quantized_notch_shift
 from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = ["NotchDesign", "NotchSection", "design_notches", "notch_for_project", "quantized_notch_shift",
-           "NotchShift", "band_centre_hz", "pole_damping_for_band", "notch_section", "TAIL_DECAY"]
+           "NotchShift", "band_centre_hz", "pole_damping_for_band", "notch_section", "TAIL_DECAY", "WIDTH_RULES",
+           "digital_width_hz", "pole_damping_for_width"]
 
-#: Narrowest band (ratio to the notch frequency) a derived width covers; also the default band.
-MIN_EDGE_RATIO = 1.1
+#: Narrowest band (ratio to the notch frequency) a derived width covers; also the default band
+#: (the same ratio as the envelope's narrowest design band, stillhook.model.envelope.MIN_BAND_EDGE_RATIO).
+MIN_EDGE_RATIO = MIN_BAND_EDGE_RATIO
+#: Default width rules (module docstring).
+WIDTH_RULES = ("band", "tolerance")
+#: |H| at the -3 dB edges.
+HALF_POWER = 1.0 / math.sqrt(2.0)
 #: Default cap on the pole damping ratio zeta_p of a derived width.
 MAX_POLE_DAMPING = 20.0
 #: Default relative notch shift under fixed-point rounding that raises a warning (our choice).
@@ -101,6 +124,27 @@ def notch_section(freq_hz: float, pole_damping: float, zero_damping: float, cycl
     # b0 = S/2 + e, b2 = S/2 - e with e = 2 zeta_z w K / D, so b0 + b2 = 1 + a2 exactly
     e = _snap(2.0 * zero_damping * w * K / D)
     return np.array([0.5 * S + e, a1, 0.5 * S - e, 1.0, a1, a2])
+
+
+def digital_width_hz(freq_hz: float, pole_damping: float, zero_damping: float, cycle_s: float) -> float:
+    """-3 dB width (Hz) of the digital notch: atan(2 sqrt(u) t0 / (1 + t0^2)) / (pi T) (module docstring)."""
+    d = zero_damping / pole_damping
+    t0 = math.tan(math.pi * freq_hz * cycle_s)
+    sqrt_u = pole_damping * math.sqrt(1.0 - 2.0 * d * d)
+    return math.atan(2.0 * sqrt_u * t0 / (1.0 + t0 * t0)) / (math.pi * cycle_s)
+
+
+def pole_damping_for_width(freq_hz: float, width_hz: float, cycle_s: float, depth_ratio: float = 0.0) -> float:
+    """zeta_p whose digital -3 dB width is ``width_hz``: the inverse of :func:`digital_width_hz`."""
+    if not width_hz < 0.5 / cycle_s:
+        raise DesignError(f"notch width {width_hz:g} Hz is not below half the drive rate ({0.5 / cycle_s:g} Hz); "
+                          "allowed: a narrower width")
+    if not 2.0 * depth_ratio**2 < 1.0:
+        raise DesignError(f"a notch of {-20 * math.log10(depth_ratio):.3g} dB depth never reaches -3 dB, so it has "
+                          "no -3 dB width; allowed: depth_db > 3.02 or no depth (a true null)")
+    t0 = math.tan(math.pi * freq_hz * cycle_s)
+    sqrt_u = math.tan(math.pi * cycle_s * width_hz) * (1.0 + t0 * t0) / (2.0 * t0)
+    return sqrt_u / math.sqrt(1.0 - 2.0 * depth_ratio**2)
 
 
 def band_centre_hz(lo_hz: float, hi_hz: float, cycle_s: float) -> float:
@@ -145,28 +189,22 @@ def pole_damping_for_band(freq_hz: float, band_hz: tuple[float, float], cycle_s:
     return sqrt_u * math.sqrt((1.0 - tolerance**2) / (tolerance**2 - depth_ratio**2))
 
 
-def _number(name: str, value, *, hi: float = math.inf, allowed: str = "a finite number > 0") -> float:
-    if isinstance(value, bool):
-        raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}")
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ConfigError(f"{name} = {value!r} is not a number; allowed: {allowed}") from None
-    if not math.isfinite(v) or v <= 0.0 or v >= hi:
-        raise ConfigError(f"{name} = {value!r} is out of range; allowed: {allowed}")
-    return v
+def _positive(name: str, value, *, hi: float | None = None) -> float:
+    return finite_number(name, value, allowed="a finite number > 0" + (f" and < {hi:g}" if hi else ""),
+                         lo=0.0, lo_ok=False, hi=hi, hi_ok=False)
 
 
-def _per_notch(name: str, value, n: int, allowed: str) -> list:
-    """None, one number for every notch, or one per notch."""
+def _per_notch(quantity: str, value, n: int) -> list:
+    """None, one number for every notch, or one per notch (each checked against LIMITS[quantity])."""
     if value is None:
         return [None] * n
     if np.ndim(value) == 0:
-        return [_number(name, value, allowed=allowed)] * n
+        return [check_quantity(quantity, value)] * n
     values = list(value)
     if len(values) != n:
-        raise ConfigError(f"{name} has {len(values)} values for {n} notches; allowed: one number or one per notch")
-    return [None if v is None else _number(name, v, allowed=allowed) for v in values]
+        raise ConfigError(f"{quantity} has {len(values)} values for {n} notches; allowed: one number or one per "
+                          "notch")
+    return [None if v is None else check_quantity(quantity, v) for v in values]
 
 
 def _warped_band(f0: float, band, T: float) -> tuple[float, float]:
@@ -186,7 +224,8 @@ def _band_grid(band: tuple[float, float], T: float, n: int = 201) -> np.ndarray:
 
 def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, bands_hz=None,
                    tolerance: float = 0.05, max_pole_damping: float = MAX_POLE_DAMPING,
-                   shift_tolerance: float = SHIFT_TOLERANCE, warn_formats=("q15", "q31")) -> NotchDesign:
+                   shift_tolerance: float = SHIFT_TOLERANCE, warn_formats=("q15", "q31"),
+                   width_rule: str = "band") -> NotchDesign:
     """Design a cascade of prewarped-Tustin notches, one per frequency.
 
     Parameters
@@ -196,7 +235,7 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
     cycle_s : float > 0
         Drive cycle = filter sample period (s).
     width_hz : float > 0 or sequence (one per notch, None entries allowed), optional
-        2 zeta_p f0 (Hz). Default: derived from the band at the tolerance (module docstring).
+        The digital filter's -3 dB width (Hz). Default: from ``width_rule`` (module docstring).
     depth_db : float > 0 or sequence, optional
         20 log10(zeta_p / zeta_z). Default: infinite (zeta_z = 0, a true null).
     bands_hz : sequence of (lo, hi), optional
@@ -205,6 +244,8 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
         Largest |H| (residual-sway fraction) allowed over each band.
     max_pole_damping : float > 0, default 20
         Cap on zeta_p of a derived width; past it the width is capped and a warning given.
+    width_rule : {'band', 'tolerance'}, default 'band'
+        Derived width: -3 dB at the band edges, or |H| <= tolerance over the band.
     shift_tolerance : float > 0, default 0.01
         Relative notch shift under fixed-point rounding that raises a warning.
     warn_formats : sequence of {'q15', 'q31'}
@@ -222,23 +263,26 @@ def design_notches(freqs_hz, cycle_s: float, *, width_hz=None, depth_db=None, ba
         A frequency or band edge at or above half the drive rate; a depth too shallow for the
         tolerance with a derived width; poles not strictly inside the unit circle.
     """
-    T = _number("cycle_s", cycle_s)
+    T = check_quantity("cycle_s", cycle_s)
     freqs = [freqs_hz] if np.ndim(freqs_hz) == 0 else list(freqs_hz)
     if not 1 <= len(freqs) <= 16:
         raise ConfigError(f"{len(freqs)} notch frequencies given; allowed: 1 to 16")
-    freqs = [_number("notch frequency_hz", f) for f in freqs]
+    freqs = [check_quantity("frequency_hz", f, name="notch frequency_hz") for f in freqs]
     check_below_half_rate(freqs, T, what="notch frequency", strict=True)
     n = len(freqs)
-    tol = _number("tolerance", tolerance, hi=1.0, allowed="a number in (0, 1)")
-    zeta_cap = _number("max_pole_damping", max_pole_damping)
-    shift_tol = _number("shift_tolerance", shift_tolerance)
-    widths = _per_notch("width_hz", width_hz, n, "a finite number > 0 (Hz), or one per notch")
-    depths = _per_notch("depth_db", depth_db, n, "a finite number > 0 (dB), or one per notch")
+    tol = _positive("tolerance", tolerance, hi=1.0)
+    zeta_cap = _positive("max_pole_damping", max_pole_damping)
+    shift_tol = _positive("shift_tolerance", shift_tolerance)
+    widths = _per_notch("width_hz", width_hz, n)
+    depths = _per_notch("depth_db", depth_db, n)
+    if width_rule not in WIDTH_RULES:
+        raise ConfigError(f"width_rule = {width_rule!r} is not allowed; allowed: " + ", ".join(map(repr, WIDTH_RULES)))
     for fmt in warn_formats:
         if fmt not in FRACTION_BITS:
             raise ConfigError(f"warn_formats entry {fmt!r} is not allowed; allowed: 'q15', 'q31'")
     bands = _bands(bands_hz, n, T)
-    sos, params, capped = _sections(freqs, widths, depths, bands, T, tol, zeta_cap)
+    cover = tol if width_rule == "tolerance" else max(tol, HALF_POWER)  # |H| at the band edges
+    sos, params, capped = _sections(freqs, widths, depths, bands, T, cover, zeta_cap)
     sections, warnings = _band_residuals(sos, params, T, tol, capped)
     quantization, post_shift = {}, {}
     for fmt in FRACTION_BITS:
@@ -259,7 +303,8 @@ def _bands(bands_hz, n: int, T: float) -> list:
         bands = []
     if len(bands) != n or any(len(b) != 2 for b in bands):
         raise ConfigError(f"bands_hz = {bands_hz!r} is not allowed; allowed: one (lo, hi) pair per notch ({n})")
-    bands = [(_number("band lower edge (Hz)", lo), _number("band upper edge (Hz)", hi)) for lo, hi in bands]
+    bands = [(check_quantity("band_edge_hz", lo, name="band lower edge (Hz)"),
+              check_quantity("band_edge_hz", hi, name="band upper edge (Hz)")) for lo, hi in bands]
     for lo, hi in bands:
         if lo > hi:
             raise DesignError(f"band [{lo:g}, {hi:g}] Hz is not allowed; allowed: 0 < lo <= hi")
@@ -267,17 +312,18 @@ def _bands(bands_hz, n: int, T: float) -> list:
     return bands
 
 
-def _sections(freqs, widths, depths, bands, T: float, tol: float, zeta_cap: float):
+def _sections(freqs, widths, depths, bands, T: float, cover: float, zeta_cap: float):
     """(sos, params, capped): one prewarped section per notch, its (f0, zeta_p, zeta_z, depth, band),
-    and {notch index: why its derived width was capped}."""
+    and {notch index: why its derived width was capped}. A derived width leaves |H| = ``cover`` at the
+    band's worse edge; a given width is the digital -3 dB width."""
     rows, params, notes = [], [], []
     for i, (f0, width, depth, band) in enumerate(zip(freqs, widths, depths, bands, strict=True)):
         d = 0.0 if depth is None else 10.0 ** (-depth / 20.0)
         eff_band = _warped_band(f0, band, T)
         if width is not None:
-            zeta_p = width / (2.0 * f0)
+            zeta_p = pole_damping_for_width(f0, width, T, d)
         else:
-            zeta_p = pole_damping_for_band(f0, eff_band, T, tol, d)
+            zeta_p = pole_damping_for_band(f0, eff_band, T, cover, d)
             if zeta_p > zeta_cap:
                 notes.append((i, f"its derived pole damping {zeta_p:.3g} was capped at {zeta_cap:g}"))
                 zeta_p = zeta_cap
@@ -299,7 +345,7 @@ def _band_residuals(sos: np.ndarray, params, T: float, tol: float, capped: dict)
     for i, (f0, zeta_p, zeta_z, depth, eff_band) in enumerate(params):
         grid = _band_grid(eff_band, T)
         worst = float(np.max(np.abs(_response(sos, grid, T))))
-        sections.append(NotchSection(f0, zeta_p, zeta_z, 2.0 * zeta_p * f0,
+        sections.append(NotchSection(f0, zeta_p, zeta_z, digital_width_hz(f0, zeta_p, zeta_z, T),
                                      math.inf if depth is None else depth, eff_band, worst))
         if worst > tol * (1.0 + 1e-9):
             why = f" ({capped[i]})" if i in capped else ""
@@ -334,9 +380,10 @@ def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) 
     Parameters
     ----------
     project : stillhook.project.Project
-        Uses the envelope's mode bands, ``[drive] cycle_s``, ``[design] tolerance_pct``,
-        ``[notch] width_hz`` / ``depth_db``, ``[firmware] format`` (the format checked for
-        warnings; both are reported) and ``[firmware] max_notch_shift_pct`` (the shift that warns).
+        Uses the envelope's design bands (``Envelope.design_bands_hz``), ``[drive] cycle_s``,
+        ``[design] tolerance_pct``, ``[notch] width_hz`` / ``depth_db`` / ``width_rule``, ``[firmware] format``
+        (the format checked for warnings; both are reported) and ``[firmware] max_notch_shift_pct`` (the shift
+        that warns).
     width_hz, depth_db : float or sequence, optional
         Override the project's ``[notch]`` values.
     tolerance : float in (0, 1), optional
@@ -349,7 +396,7 @@ def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) 
         unless ``width_hz`` is set (module docstring).
     """
     T = project.drive["cycle_s"]
-    bands = project.envelope.mode_bands_hz()
+    bands = project.envelope.design_bands_hz()
     for i, (_lo, hi) in enumerate(bands):
         check_below_half_rate([hi], T, what=f"sway mode {i + 1}'s highest frequency", strict=True)
     freqs = [band_centre_hz(lo, hi, T) for lo, hi in bands]
@@ -358,4 +405,5 @@ def notch_for_project(project, *, width_hz=None, depth_db=None, tolerance=None) 
     return design_notches(freqs, T, width_hz=width, depth_db=depth, bands_hz=bands,
                           tolerance=project.design["tolerance_pct"] / 100.0 if tolerance is None else tolerance,
                           shift_tolerance=project.firmware.get("max_notch_shift_pct", 100 * SHIFT_TOLERANCE) / 100.0,
-                          warn_formats=(project.firmware["format"],))
+                          warn_formats=(project.firmware["format"],),
+                          width_rule=project.notch.get("width_rule", "band"))

@@ -50,6 +50,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import check_quantity
 from stillhook.errors import ConfigError, DesignError
 from stillhook.fixed_point import FRACTION_BITS, round_half_up
 
@@ -185,8 +186,7 @@ def section_notch_frequencies_hz(sos, cycle_s: float) -> np.ndarray:
         Sample period T (s).
     """
     a = _check_sos(sos)
-    if not (math.isfinite(cycle_s) and cycle_s > 0):
-        raise ConfigError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
+    cycle_s = check_quantity("cycle_s", cycle_s)
     b0, b1, b2 = a[:, 0], a[:, 1], a[:, 2]
     disc = 4.0 * b0 * b2 - b1 * b1
     theta = np.where(disc > 0, np.arctan2(np.sqrt(np.maximum(disc, 0.0)), -b1), 0.0)

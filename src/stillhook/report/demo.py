@@ -113,7 +113,8 @@ class DemoResult:
     commissioning: object = None
 
 
-def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = True, progress=None) -> DemoResult:
+def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = True, progress=None,
+             force: bool = False) -> DemoResult:
     """Run the whole job on the demo project and write ``out_dir`` (all files at once).
 
     The job starts from the commissioning logs: the demo project is calibrated against them
@@ -129,6 +130,8 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
         Compile and run the emitted self-test when a C compiler exists.
     progress : callable(str), optional
         Told the name of each stage as it starts.
+    force : bool
+        Replace what stillhook wrote into ``out_dir`` before (:mod:`stillhook.outputs`).
 
     Raises
     ------
@@ -136,7 +139,7 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
         The firmware could not be emitted (the demo's design must always emit).
     """
     t_start = time.perf_counter()
-    check_out_dir(out_dir)
+    check_out_dir(out_dir, force=force)
     if progress is not None:
         progress("commissioning (identify, calibrate)")
     t0 = time.perf_counter()
@@ -164,6 +167,6 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     files.update(commissioning_files(demo))
     files.update({f"firmware/{name}": text for name, text in study.firmware_files.items()})
     study.timings_s["report"] = time.perf_counter() - t0
-    written = write_files(out_dir, dict(sorted(files.items())))
+    written = write_files(out_dir, dict(sorted(files.items())), force=force)
     study.timings_s["total"] = time.perf_counter() - t_start
     return DemoResult(study, result, written, dict(study.timings_s), demo)

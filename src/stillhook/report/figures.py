@@ -152,7 +152,7 @@ def residual_map_figure(data: dict):
     for ax in axes[len(maps):]:
         ax.set_visible(False)
     mv = data["move"]
-    fig.suptitle(f"{data['title']}\n{mv['distance_m']:g} m trapezoid at {mv['max_speed_m_s']:g} m/s, "
+    fig.suptitle(f"{data['title']}\n{mv['distance_m']:g} m {mv['profile']} at {mv['max_speed_m_s']:g} m/s, "
                  f"{mv['max_accel_m_s2']:g} m/s2, rope held; black line: {tol:g} % of unshaped",
                  x=0.01, ha="left", fontsize=10)
     return fig

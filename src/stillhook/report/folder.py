@@ -19,8 +19,12 @@ def report_files(study: Study) -> dict[str, str | bytes]:
     return files
 
 
-def write_report(project, out_dir, **options):
-    """Build the study and write the report folder (all files at once). Returns (study, written paths)."""
-    check_out_dir(out_dir)
+def write_report(project, out_dir, *, force: bool = False, **options):
+    """Build the study and write the report folder (all files at once). Returns (study, written paths).
+
+    The folder is checked before any work (:func:`stillhook.outputs.check_out_dir`; ``force`` replaces a folder
+    stillhook wrote before).
+    """
+    check_out_dir(out_dir, force=force)
     study = build_study(project, **options)
-    return study, write_files(out_dir, report_files(study))
+    return study, write_files(out_dir, report_files(study), force=force)

@@ -35,6 +35,11 @@ def section_summary(study) -> str:
             f"(worst {num(100 * s['worst_ratio'], '.3g')} % at {num(at['rope_length_m'], '.3g')} m rope, "
             f"{num(at['payload_mass_kg'], '.4g')} kg). It lengthens a move by at most "
             f"{num(s['added_s'], '.3g')} s.")
+    mc = study.move_check
+    if mc is not None:
+        # the sweep holds the rope; the project's own move may hoist: say both (issue 11)
+        text += f" The envelope shaper, checked {esc(mc.sentence())}."
+        ok = ok and mc.holds
     return f'<div class="verdict{"" if ok else " bad"}"><strong>Summary.</strong> {text}</div>'
 
 
@@ -61,6 +66,10 @@ def design_tables(study) -> str:
                      ("high mode treated", "yes" if design.high_mode_treated else "no (see the reason above)"),
                      ("bands designed for", ", ".join(f"{num(lo)}&ndash;{num(hi)} Hz"
                                                       for lo, hi in design.bands_hz))])]
+    if study.move_check is not None:
+        mc = study.move_check
+        out.append(f'<p class="{"" if mc.holds else "bad"}">Checked on the nonlinear simulator: '
+                   f"{esc(mc.sentence())}.</p>")
     if sh.n_impulses <= 24:
         out.append(_impulses(sh, T))
     sched = design.schedule
@@ -114,7 +123,8 @@ def section_sweep(study, png) -> str:
         return "".join(out)
     mv = sw.move
     out.append(f"<p>Every rig of a {sw.grid_shape[0]} &times; {sw.grid_shape[1]} grid of rope lengths and payload "
-               f"masses makes a {num(mv['distance_m'])} m rest-to-rest trapezoid at {num(mv['max_speed_m_s'])} m/s and "
+               f"masses makes a {num(mv['distance_m'])} m rest-to-rest {esc(mv['profile'])} at "
+               f"{num(mv['max_speed_m_s'])} m/s and "
                f"{num(mv['max_accel_m_s2'])} m/s&sup2; with the rope held; residual sway is the peak |payload offset| "
                f"over {num(mv['settle_window_s'])} s after the command ends. The schedule gives each rig the row the "
                "firmware picks for its rope length.</p>")

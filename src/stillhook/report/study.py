@@ -26,6 +26,7 @@ from stillhook.report.commissioning_section import commissioning_data
 from stillhook.report.feedback_section import feedback_figures, feedback_json, feedback_study
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.study.compare import compare_project
+from stillhook.study.move_check import check_design_on_move
 from stillhook.study.sweep import sweep_project
 from stillhook.version import __version__
 
@@ -47,6 +48,7 @@ class Study:
 
     project: object
     design: object | None = None
+    move_check: object | None = None
     notch: object | None = None
     comparison: object | None = None
     sweep: object | None = None
@@ -82,8 +84,8 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     grid : (int, int)
         Envelope sweep grid (rope lengths x payload masses).
     distance_m : float, optional
-        Sweep move distance (default :data:`stillhook.study.sweep.DEFAULT_DISTANCE_M`); the comparison and
-        the time responses use the project's own move.
+        Sweep move distance (default the project's ``[move] distance_m``); the sweep holds the rope length,
+        the comparison and the time responses use the project's own move with hoisting.
     check : bool
         Nonlinear spot checks of the sweep at the envelope corners.
     progress : callable(str), optional
@@ -105,6 +107,8 @@ def build_study(project, *, grid: tuple[int, int] = REPORT_GRID, distance_m: flo
     t0 = time.perf_counter()
     study.design = design_for_project(project)  # without a design there is no report
     study.timings_s["design"] = time.perf_counter() - t0
+    say("design on the project's move")
+    study.move_check = _step(study, "move check", lambda: check_design_on_move(project, study.design.shaper))
     study.commissioning = _step(study, "commissioning", lambda: commissioning_data(project, study.design))
     say("notch")
     study.notch = _step(study, "notch", lambda: notch_for_project(project))
@@ -180,6 +184,7 @@ def report_json(study: Study) -> dict:
         "modes_nominal": [m.as_dict() for m in env.nominal_rig.modes()],
         "bands_hz": [list(b) for b in env.mode_bands_hz()],
         "design": study.design.as_dict() if study.design is not None else None,
+        "design_on_move": study.move_check.as_dict() if study.move_check is not None else None,
         "notch": study.notch.as_dict() if study.notch is not None else None,
         "comparison": study.comparison.as_dict() if study.comparison is not None else None,
         "sweep": _sweep_json(study.sweep),

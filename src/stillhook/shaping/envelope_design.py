@@ -3,7 +3,8 @@
 Steps (:func:`design_for_project`):
 
 1. Each mode's band (lowest, highest frequency) over the envelope (rope range x payload range),
-   at least +-2 % wide (``MIN_BAND_HALF_WIDTH``).
+   at least the narrowest design band (``Envelope.design_bands_hz``: about +-10 %, also for the notch and the
+   comparison); a schedule row's band at least +-2 % (``ROW_MIN_EDGE_RATIO``).
 2. A shaper for the low mode's band alone. Its residual payload sway ratio
    sum_i |P_i| V_i / sum_i |P_i| (see :mod:`stillhook.shaping.residual_map`) is evaluated on a dense
    envelope grid. If it stays within the tolerance everywhere the high mode is left untreated,
@@ -37,6 +38,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from stillhook.errors import DesignError
+from stillhook.model.envelope import MIN_BAND_EDGE_RATIO
 from stillhook.model.lookup import row_edges_m, rule_words, schedule_rows
 from stillhook.shaping.band_design import band_shaper, family_region, multi_band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
@@ -48,15 +50,15 @@ from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
-    "CHECK_GRID", "DESIGN_MARGIN", "Design", "MIN_BAND_HALF_WIDTH", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
+    "CHECK_GRID", "DESIGN_MARGIN", "Design", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
     "design_for_project", "schedule_for_project", "schedule_ratio", "schedule_row_count", "schedule_rope_lengths",
 ]
 
 #: Design to this fraction below the tolerance (fixed-point amplitude rounding, grid sampling).
 DESIGN_MARGIN = 0.02
-#: Every band is at least this wide on each side of its centre (relative): robustness to the
-#: frequency estimate even when the envelope is a single point.
-MIN_BAND_HALF_WIDTH = 0.02
+#: Narrowest band of one schedule row (+-2 %): a row serves a short span of rope lengths next to its
+#: neighbours (ROW_OVERLAP), so it needs less margin than the whole envelope's design band.
+ROW_MIN_EDGE_RATIO = 1.02
 #: Dense envelope grid (rope lengths x payload masses) for every check.
 CHECK_GRID = (41, 41)
 #: Target spread of the low-mode frequency across the rope lengths one schedule row serves.
@@ -232,14 +234,9 @@ def _sub_envelope(env, rope_lo: float, rope_hi: float):
     return replace(env, rope_length_range_m=(rope_lo, rope_hi), nominal_rope_length_m=None)
 
 
-def _bands(env) -> list[tuple[float, float]]:
-    """Each mode's band over the envelope, widened to at least +-MIN_BAND_HALF_WIDTH around its
-    geometric centre (a fixed rope length and payload would otherwise give a zero-width band)."""
-    out = []
-    for lo, hi in env.mode_bands_hz(9, 61):
-        c = math.sqrt(lo * hi)
-        out.append((min(lo, c * (1.0 - MIN_BAND_HALF_WIDTH)), max(hi, c * (1.0 + MIN_BAND_HALF_WIDTH))))
-    return out
+def _bands(env, min_edge_ratio: float = MIN_BAND_EDGE_RATIO) -> list[tuple[float, float]]:
+    """Each mode's band over the envelope, at least the narrowest design band (Envelope.design_bands_hz)."""
+    return env.design_bands_hz(9, 61, min_edge_ratio=min_edge_ratio)
 
 
 def _closed_form_for_band(method: str, band, tol: float, zeta: float, cycle_s: float) -> Shaper:
@@ -339,7 +336,7 @@ def _schedule(project, whole: Shaper, progress=None, total: int = 0) -> Schedule
     for a, b in probe.row_spans_m():
         a, b = max(lo_range, a - ROW_OVERLAP * (b - a)), min(hi_range, b + ROW_OVERLAP * (b - a))
         sub = _sub_envelope(env, a, b)
-        bands = _bands(sub)
+        bands = _bands(sub, ROW_MIN_EDGE_RATIO)
         _check_low_band(bands, cycle)
         grid = (np.linspace(a, b, 5), np.linspace(*env.payload_mass_range_kg, CHECK_GRID[1]))
         s, _, high, _ = _decide(sub, method, bands, tol, tol_d, env.damping_ratio, cycle, grid,

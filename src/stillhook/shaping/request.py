@@ -12,6 +12,7 @@ import math
 
 import numpy as np
 
+from stillhook.checks import check_quantity
 from stillhook.errors import DesignError
 from stillhook.shaping.band_design import band_shaper, two_mode_shapers
 from stillhook.shaping.closed_forms import CLOSED_FORMS
@@ -22,16 +23,6 @@ from stillhook.sim.drive_rate import check_below_half_rate
 __all__ = ["check_request", "shaper_request"]
 
 
-def _finite(name: str, value, allowed: str) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise DesignError(f"{name} = {value!r} is not a number; allowed: {allowed}") from None
-    if not math.isfinite(v):
-        raise DesignError(f"{name} = {value!r} is not finite; allowed: {allowed}")
-    return v
-
-
 def check_request(method: str, freqs_hz, bands_hz, damping_ratio, tolerance_pct, cycle_s):
     """Validate a request; return (freqs, bands, zeta, tolerance fraction, cycle_s or None).
 
@@ -39,20 +30,13 @@ def check_request(method: str, freqs_hz, bands_hz, damping_ratio, tolerance_pct,
     """
     if method not in (*CLOSED_FORMS, "band"):
         raise DesignError(f"method {method!r} is not known; allowed: " + ", ".join((*CLOSED_FORMS, "band")))
-    pct = _finite("tolerance", tolerance_pct, "0 < tolerance < 100 (percent)")
-    if not 0.0 < pct < 100.0:
-        raise DesignError(f"tolerance = {pct:g} % is out of range; allowed: 0 < tolerance < 100 (percent)")
-    zeta = _finite("damping", damping_ratio, "0 <= damping < 1")
-    if not 0.0 <= zeta < 1.0:
-        raise DesignError(f"damping = {zeta:g} is out of range; allowed: 0 <= damping < 1")
-    freqs = [_finite("frequency", f, "a frequency in Hz > 0") for f in freqs_hz]
-    for f in freqs:
-        if f <= 0.0:
-            raise DesignError(f"frequency = {f:g} Hz is out of range; allowed: > 0 Hz")
+    pct = check_quantity("tolerance_pct", tolerance_pct, error=DesignError)
+    zeta = check_quantity("damping_ratio", damping_ratio, error=DesignError)
+    freqs = [check_quantity("frequency_hz", f, error=DesignError) for f in freqs_hz]
     bands = []
     for band in bands_hz:
-        lo, hi = (_finite("band edge", v, "0 < LO < HI (Hz)") for v in band)
-        if lo <= 0.0 or lo >= hi:
+        lo, hi = (check_quantity("band_edge_hz", v, error=DesignError) for v in band)
+        if lo >= hi:
             raise DesignError(f"band [{lo:g}, {hi:g}] Hz is impossible; allowed: 0 < LO < HI")
         bands.append((lo, hi))
     cycle = None
@@ -61,10 +45,10 @@ def check_request(method: str, freqs_hz, bands_hz, damping_ratio, tolerance_pct,
         check_below_half_rate(freqs + [hi for _, hi in bands], cycle)
     if method == "band":
         if freqs:
-            raise DesignError("method 'band' takes its bands from --band LO HI (repeat for a second mode), "
+            raise DesignError("method 'band' takes its bands from --band-hz LO HI (repeat for a second mode), "
                               "not --frequency-hz")
         if not bands:
-            raise DesignError("method 'band' needs --band LO HI (one per mode)")
+            raise DesignError("method 'band' needs --band-hz LO HI (one per mode)")
     elif not freqs:
         raise DesignError(f"method {method!r} needs --frequency-hz F (repeat for a two-mode shaper)")
     return freqs, bands, zeta, pct / 100.0, cycle

@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
-from stillhook.checks import finite_number
+from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import DesignError
 
 __all__ = [
@@ -49,13 +49,11 @@ _UNBOUNDED_RATIO = 100.0
 
 
 def check_frequency(freq_hz: float) -> float:
-    return finite_number("frequency (Hz)", freq_hz, allowed="a finite number > 0", error=DesignError,
-                         lo=0.0, lo_ok=False)
+    return check_quantity("frequency_hz", freq_hz, error=DesignError)
 
 
 def check_damping(damping_ratio: float) -> float:
-    return finite_number("damping ratio", damping_ratio, allowed="0 <= damping < 1", error=DesignError,
-                         lo=0.0, hi=1.0, hi_ok=False)
+    return check_quantity("damping_ratio", damping_ratio, error=DesignError)
 
 
 def check_tolerance(tolerance: float) -> float:
@@ -65,7 +63,7 @@ def check_tolerance(tolerance: float) -> float:
 
 def check_cycle(cycle_s: float) -> float:
     """The drive cycle (s) as a finite number > 0, else DesignError."""
-    return finite_number("cycle_s", cycle_s, allowed="a finite number > 0", error=DesignError, lo=0.0, lo_ok=False)
+    return check_quantity("cycle_s", cycle_s, error=DesignError)
 
 
 def residual_vibration(times_s, amplitudes, omega_rad_s, damping_ratio: float = 0.0) -> np.ndarray:

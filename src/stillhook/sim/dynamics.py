@@ -43,7 +43,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from stillhook.checks import finite_number
+from stillhook.checks import MAX_SIM_SAMPLES, check_quantity, check_work, finite_number
 from stillhook.errors import ConfigError
 from stillhook.model.rig import Rig, mode_frequencies_rad_s
 from stillhook.sim.motion import MIN_ROPE_LENGTH_M, Track, as_samples, command_end_index, cycles_needed
@@ -217,7 +217,7 @@ def simulate_batch(rigs, speeds_m_s, cycle_s: float, *, rope_length_m=None, hois
     list of SimResult
         One per run, in order; each equals what :func:`simulate` returns for that run alone.
     """
-    Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
+    Ts = check_quantity("cycle_s", cycle_s)
     step_rad = step_rad_for(rtol)
     rigs = _as_list("rigs", rigs, Rig)
     cmds = [as_samples("speed_m_s", v) for v in _as_list("speeds_m_s", speeds_m_s, np.ndarray)]
@@ -226,8 +226,11 @@ def simulate_batch(rigs, speeds_m_s, cycle_s: float, *, rope_length_m=None, hois
     n_runs = max(len(rigs), len(cmds))
     if np.ndim(settle_s) == 1 and len(settle_s) not in (1, n_runs):
         raise ConfigError(f"settle_s has {len(settle_s)} values for {n_runs} runs; allowed: one, or one per run")
-    settles = [finite_number("settle_s", v, allowed="a finite number > 0", lo=0.0, lo_ok=False)
-               for v in np.broadcast_to(np.asarray(settle_s, dtype=object), (n_runs,))]
+    settles = [check_quantity("settle_s", v) for v in np.broadcast_to(np.asarray(settle_s, dtype=object), (n_runs,))]
+    for r in range(n_runs):  # refused before any integration: the recording of each run is bounded
+        check_work("drive cycles to simulate (command and settle window)", len(cmds[r % len(cmds)]) + settles[r] / Ts,
+                   MAX_SIM_SAMPLES, hint="use a shorter move or a longer drive cycle (limit: "
+                   "stillhook.checks.MAX_SIM_SAMPLES)")
     hoist = _hoist_input(rope_length_m, hoist_speed_m_s, Ts)
     th0 = [float(v) for v in initial_angles_rad]
     w0 = [float(v) for v in initial_rates_rad_s]

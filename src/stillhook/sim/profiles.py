@@ -16,12 +16,12 @@ import math
 
 import numpy as np
 
-from stillhook.checks import finite_number
+from stillhook.checks import MAX_MOVE_SAMPLES, check_work, finite_number
 from stillhook.errors import ConfigError
 
 __all__ = [
-    "DEFAULT_JERK_PER_ACCEL_1_S", "hoist_lengths", "hoist_speeds", "pendant_steps", "project_move", "s_curve",
-    "trapezoid",
+    "DEFAULT_JERK_PER_ACCEL_1_S", "check_move_samples", "hoist_lengths", "hoist_speeds", "pendant_steps",
+    "project_move", "s_curve", "trapezoid",
 ]
 
 #: S-curve jerk when none is set: the acceleration is reached in 0.25 s (our choice, no source).
@@ -31,6 +31,12 @@ DEFAULT_JERK_PER_ACCEL_1_S = 4.0
 def _positive(name: str, value: float, *, zero_ok: bool = False) -> float:
     return finite_number(name, value, allowed="a finite number " + (">= 0" if zero_ok else "> 0"),
                          lo=0.0, lo_ok=zero_ok)
+
+
+def check_move_samples(n_samples: float, what: str) -> None:
+    """Refuse a command longer than :data:`stillhook.checks.MAX_MOVE_SAMPLES` drive cycles, before it is made."""
+    check_work(f"drive cycles of {what}", n_samples, MAX_MOVE_SAMPLES,
+               hint="use a shorter move, a faster drive or a longer cycle (limit: stillhook.checks.MAX_MOVE_SAMPLES)")
 
 
 def _ramp_cycles(speed_m_s: float, accel_m_s2: float, cycle_s: float) -> int:
@@ -61,6 +67,9 @@ def trapezoid(distance_m: float, max_speed_m_s: float, max_accel_m_s2: float, cy
     Ts = _positive("cycle_s", cycle_s)
     # Continuous peak speed: v_max, or sqrt(d a_max) for a triangular move.
     v_target = min(v_max, math.sqrt(d * a_max))
+    # duration d / v + v / a, checked before any array is made
+    check_move_samples((d / v_target + v_target / a_max) / Ts, f"a {d:g} m move at {v_target:g} m/s and "
+                       f"{a_max:g} m/s2 on a {Ts:g} s cycle")
     n_a = _ramp_cycles(v_target, a_max, Ts)
     n_c = max(0, math.ceil(d / (v_target * Ts) - n_a - 1e-9))
     v_p = d / ((n_a + n_c) * Ts)
@@ -118,6 +127,7 @@ def pendant_steps(steps, max_accel_m_s2: float, cycle_s: float) -> np.ndarray:
             raise ConfigError(f"pendant step {i} = {item!r}; allowed: (duration_s, speed_m_s)") from None
         n = round(_positive(f"pendant step {i} duration_s", duration_s, zero_ok=True) / Ts)
         s = finite_number(f"pendant step {i} speed_m_s", speed, allowed="a finite number")
+        check_move_samples(len(targets) + n, "the pendant steps")
         targets.extend([s] * n)
     dv = a_max * Ts
     out = [0.0]

@@ -51,7 +51,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.notch.design import MIN_EDGE_RATIO, notch_for_project
+from stillhook.notch.design import notch_for_project
 from stillhook.shaping import closed_forms as shapers
 from stillhook.shaping.band_design import band_shaper
 from stillhook.shaping.cycle_grid import to_cycle_grid
@@ -178,11 +178,11 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
     out.append(Candidate("ei", "EI", to_cycle_grid(shapers.ei(f, zeta, tol), T, freqs_hz=[f], damping_ratio=zeta),
                          where))
     notes = []
-    lo, hi = env.mode_bands_hz()[i]
-    if hi / lo < 1.0 + 1e-6:
-        # a one-point envelope has no band: cover +-10 % (the notch module's narrowest band)
-        lo, hi = f / MIN_EDGE_RATIO, f * MIN_EDGE_RATIO
-        notes.append(f"band shaper: the envelope gives mode {i + 1} no band; +-10 % around {f:.4g} Hz used")
+    env_lo, env_hi = env.mode_bands_hz()[i]
+    lo, hi = env.design_bands_hz()[i]  # the same implicit band as the shaper design and the notch
+    if (lo, hi) != (env_lo, env_hi):
+        notes.append(f"band shaper: the envelope gives mode {i + 1} only {env_lo:.4g}-{env_hi:.4g} Hz; the "
+                     f"narrowest design band {lo:.4g}-{hi:.4g} Hz (about +-10 %) is used, as by the shaper and notch")
     out.append(Candidate("band", "band", band_shaper(lo, hi, tol, zeta, cycle_s=T),
                          f"mode {i + 1} band {lo:.4g}-{hi:.4g} Hz"))
     design = design_for_project(project)

@@ -44,6 +44,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from stillhook.checks import check_quantity, check_quantity_array
 from stillhook.errors import ConfigError
 from stillhook.model.modal_batch import batch_modes
 from stillhook.sim.dynamics import SETTLE_WINDOW_S
@@ -101,10 +102,8 @@ class ModalBatch:
         if L1.shape != m2.shape or L1.ndim != 1:
             raise ConfigError(f"rope lengths and payload masses must be paired 1-D arrays; got shapes "
                               f"{L1.shape} and {m2.shape}")
-        if not (np.all(np.isfinite(L1)) and np.all(L1 > 0)):
-            raise ConfigError("rope lengths must be finite and > 0 (m)")
-        if not (np.all(np.isfinite(m2)) and np.all(m2 >= 0)):
-            raise ConfigError("payload masses must be finite and >= 0 (kg)")
+        check_quantity_array("rope_length_m", L1, name="rope lengths")
+        check_quantity_array("payload_mass_kg", m2, name="payload masses")
         Lp = envelope.pendulum_length_m(L1)  # pendulum length of the encoder rope lengths L1
         if not np.all(Lp > 0):
             raise ConfigError("rope lengths plus the rope offset must be > 0 (m)")
@@ -166,9 +165,7 @@ class AccelRuns:
             Speed samples v[k] (m/s); the command holds 0 after the last sample.
         cycle_s : float > 0
         """
-        T = float(cycle_s)
-        if not (math.isfinite(T) and T > 0):
-            raise ConfigError(f"cycle_s = {cycle_s!r} is out of range; allowed: a finite number > 0")
+        T = check_quantity("cycle_s", cycle_s)
         v = np.asarray(speed_m_s, dtype=float)
         if v.ndim != 1 or v.size == 0 or not np.all(np.isfinite(v)):
             raise ConfigError("speed_m_s must be a non-empty 1-D sequence of finite speeds (m/s)")
@@ -308,8 +305,7 @@ def residual_sway_m(batch: ModalBatch, speed_m_s, cycle_s: float, *, settle_s: f
     -------
     ndarray (R,)
     """
-    if not (math.isfinite(settle_s) and settle_s > 0):
-        raise ConfigError(f"settle_s = {settle_s!r} is out of range; allowed: a finite number > 0")
+    settle_s = check_quantity("settle_s", settle_s)
     if which not in ("payload", "hook"):
         raise ConfigError(f"which = {which!r} is not allowed; allowed: 'payload' or 'hook'")
     runs = AccelRuns.from_speed(speed_m_s, cycle_s)

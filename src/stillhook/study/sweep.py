@@ -1,7 +1,7 @@
 """Envelope sweep: residual payload sway of every design over the rope-length x payload-mass envelope.
 
-For one move (a rest-to-rest trapezoid at the drive's speed and acceleration limits, fixed rope
-length) every rig of a grid, or of random samples of the envelope, is run with each design's
+For one move (the project's [move]: distance and profile at the drive's speed and acceleration limits, fixed
+rope length) every rig of a grid, or of random samples of the envelope, is run with each design's
 command: unshaped, the project's one-for-the-envelope shaper, the length-scheduled shaper (each rig
 gets the row the firmware picks for its rope length) and the notch cascade. The residual sway is
 computed exactly on the linear model for all rigs at once (:mod:`stillhook.study.modal_sweep`); a few
@@ -22,18 +22,18 @@ described in :mod:`stillhook.study.modal_sweep`.
 from __future__ import annotations
 
 import contextlib
-import math
 import os
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor
 
 import numpy as np
 
+from stillhook.checks import MAX_SWEEP_RIGS, check_quantity, check_work
 from stillhook.errors import ConfigError
 from stillhook.notch.design import notch_for_project
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate_batch
-from stillhook.sim.profiles import trapezoid
+from stillhook.sim.profiles import project_move
 from stillhook.study.modal_sweep import AccelRuns, ModalBatch, end_amplitudes, peak_after_end
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
 
@@ -44,10 +44,10 @@ __all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "SpotCheck", "SweepDesign", 
 DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
 #: Default grid (rope lengths x payload masses).
 DEFAULT_GRID = (21, 21)
-#: Default travel distance of the sweep's move (m).
+#: Travel distance of the benchmarks' sweep move (m); sweep_project uses the project's [move] distance_m.
 DEFAULT_DISTANCE_M = 6.0
 #: Largest number of rigs one sweep accepts (memory: ~50 bytes per rig and design for points and results).
-MAX_RIGS = 1_000_000
+MAX_RIGS = MAX_SWEEP_RIGS
 #: Rigs per chunk: the sweep's working memory is bounded by this (~100 MB at most for a notch command).
 CHUNK_RIGS = 4096
 
@@ -106,7 +106,7 @@ def project_designs(project, speed_m_s, *, keys=DESIGN_KEYS, design=None, notch=
 # -- rigs ----------------------------------------------------------------------------------------
 def grid_points(envelope, n_rope: int, n_payload: int) -> tuple[np.ndarray, np.ndarray]:
     """Paired rope lengths and payload masses of an n_rope x n_payload grid (rope-major order)."""
-    _check_count("grid size", n_rope * n_payload)
+    check_work("sweep rigs (grid size)", n_rope * n_payload, MAX_RIGS, hint="use a coarser --grid")
     Ls, ms = envelope.grid(n_rope, n_payload)
     L, m = np.meshgrid(Ls, ms, indexing="ij")
     return L.ravel(), m.ravel()
@@ -114,7 +114,7 @@ def grid_points(envelope, n_rope: int, n_payload: int) -> tuple[np.ndarray, np.n
 
 def random_points(envelope, n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
     """``n`` rigs drawn uniformly over the envelope's rectangle (numpy PCG64, fixed ``seed``)."""
-    _check_count("number of samples", n)
+    check_quantity("random_rigs", n, name="number of samples")
     rng = np.random.default_rng(seed)
     (L0, L1), (m0, m1) = envelope.rope_length_range_m, envelope.payload_mass_range_kg
     return rng.uniform(L0, L1, n) if L1 > L0 else np.full(n, L0), rng.uniform(m0, m1, n) if m1 > m0 else np.full(n, m0)
@@ -128,11 +128,6 @@ def corner_points(envelope) -> list[tuple[float, float]]:
             if (L, m) not in out:
                 out.append((L, m))
     return out
-
-
-def _check_count(what: str, n: int) -> None:
-    if not 1 <= n <= MAX_RIGS:
-        raise ConfigError(f"{what} = {n} is out of range; allowed: 1 to {MAX_RIGS} rigs")
 
 
 # -- the sweep -----------------------------------------------------------------------------------
@@ -222,8 +217,9 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     samples : int >= 1, optional
         Random rigs drawn uniformly over the envelope instead (reproducible with ``seed``).
     seed : int
-    distance_m : float > 0, optional
-        Travel distance of the trapezoid move; default :data:`DEFAULT_DISTANCE_M` (6 m).
+    distance_m : float in (0, 1000], optional
+        Travel distance of the move; default the project's ``[move] distance_m``. The move is the project's
+        (``[move] profile`` at the drive's limits) with the rope length held: hoisting is in the comparison.
     keys : sequence of str
         Designs to sweep (subset of :data:`DESIGN_KEYS`).
     design, notch : optional
@@ -240,19 +236,18 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     env = project.envelope
     drive = project.drive
     T = drive["cycle_s"]
-    d_m = DEFAULT_DISTANCE_M if distance_m is None else distance_m
-    if not (isinstance(d_m, int | float) and math.isfinite(d_m) and 0 < d_m <= 1000):
-        raise ConfigError(f"distance = {d_m!r} m is out of range; allowed: 0 < distance <= 1000 m")
-    speed = trapezoid(d_m, drive["max_speed_m_s"], drive["max_accel_m_s2"], T)
+    d_m = project.move["distance_m"] if distance_m is None else check_quantity("distance_m", distance_m)
+    speed, _ = project_move(project, d_m)  # the project's move; the linear sweep holds the rope length
     if samples is not None:
-        L, m = random_points(env, int(samples), seed)
+        L, m = random_points(env, check_quantity("random_rigs", samples, name="samples"), seed)
         shape = None
     else:
         if grid is None or len(grid) != 2:
             raise ConfigError(f"grid = {grid!r}; allowed: (n_rope, n_payload), each >= 1")
-        n_rope, n_payload = (int(v) for v in grid)
-        if n_rope < 1 or n_payload < 1:
-            raise ConfigError(f"grid = {n_rope} x {n_payload}; allowed: at least 1 x 1")
+        n_rope, n_payload = (check_quantity("grid_points", v, name="grid") for v in grid)
+        # a range that is one point gets one grid line, not n copies of the same rig
+        n_rope = 1 if env.rope_length_range_m[0] == env.rope_length_range_m[1] else n_rope
+        n_payload = 1 if env.payload_mass_range_kg[0] == env.payload_mass_range_kg[1] else n_payload
         L, m = grid_points(env, n_rope, n_payload)
         shape = (n_rope, n_payload)
     designs, notes = project_designs(project, speed, keys=keys, design=design, notch=notch)
@@ -262,7 +257,9 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     if check and any(d.key in UNCHECKED_KEYS for d in designs):
         notes.append("spot checks: the notch is not re-run on the nonlinear simulator (its ring-out makes "
                      "that slow); the linear model's error is second order in the sway amplitude")
-    move = {"profile": "trapezoid", "distance_m": float(d_m), "max_speed_m_s": drive["max_speed_m_s"],
+    if project.move["hoist_to_m"] is not None:
+        notes.append("the sweep holds the rope length; the project's hoisting during the move is in the comparison")
+    move = {"profile": project.move["profile"], "distance_m": float(d_m), "max_speed_m_s": drive["max_speed_m_s"],
             "max_accel_m_s2": drive["max_accel_m_s2"], "cycle_s": T,
             "command_end_s": AccelRuns.from_speed(speed, T).command_end_s, "settle_window_s": SETTLE_WINDOW_S,
             "hoisting": False}

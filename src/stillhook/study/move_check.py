@@ -1,0 +1,90 @@
+"""Does the project's design hold its tolerance on the project's own move? Checked on the nonlinear simulator.
+
+The shaper design (:mod:`stillhook.shaping.envelope_design`) meets the tolerance on the linear model at fixed
+rope lengths. The project's move can hoist while travelling, which sweeps the sway frequencies during the move,
+and the real pendulum is nonlinear. So the design is re-run on the project's move (hoisting included) at the
+nominal rig and at each corner of the envelope, each against the unshaped move at the same rig:
+
+    ratio = residual payload sway with the shaper / residual payload sway unshaped,
+
+and every output that states the tolerance reports the worst ratio and whether it holds (issue 11).
+At a corner the hoist moves the rope from the corner's rope length to ``[move] hoist_to_m``.
+
+Notes
+-----
+Nonlinear double pendulum with a moving trolley and hoist: :func:`stillhook.sim.dynamics.simulate`
+(Lagrange equations, Kibble & Berkshire, Classical Mechanics, 5th ed., 2004).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from stillhook.sim.dynamics import simulate
+from stillhook.sim.profiles import hoist_speeds, project_move
+
+__all__ = ["MoveCheck", "check_design_on_move", "check_points"]
+
+
+@dataclass(frozen=True)
+class MoveCheck:
+    """Residual sway of the design against unshaped at each checked rig, on the project's move."""
+
+    points: tuple[dict, ...]
+    tolerance: float
+    hoist: bool
+    distance_m: float
+
+    @property
+    def worst(self) -> dict:
+        return max(self.points, key=lambda p: p["ratio"])
+
+    @property
+    def holds(self) -> bool:
+        return self.worst["ratio"] <= self.tolerance * (1 + 1e-9)
+
+    def sentence(self) -> str:
+        """One line with the numbers, for every output that states the tolerance."""
+        w = self.worst
+        move = f"the project's {self.distance_m:g} m move" + (" with hoisting" if self.hoist else "")
+        where = f"rope {w['rope_length_m']:g} m, payload {w['payload_mass_kg']:g} kg"
+        verdict = "holds" if self.holds else "does NOT hold"
+        return (f"on {move} (nonlinear simulation, nominal rig and {len(self.points) - 1} envelope corners) the "
+                f"tolerance {verdict}: worst {100 * w['ratio']:.3g} % of unshaped against {100 * self.tolerance:g} % "
+                f"({where})")
+
+    def as_dict(self) -> dict:
+        return {"tolerance": self.tolerance, "hoist": self.hoist, "distance_m": self.distance_m,
+                "holds": self.holds, "worst": dict(self.worst), "points": [dict(p) for p in self.points],
+                "summary": self.sentence()}
+
+
+def check_points(envelope) -> list[tuple[float, float]]:
+    """The nominal rig first, then the envelope's distinct corners (rope length, payload mass)."""
+    pts = [(envelope.nominal_rope_length_m, envelope.nominal_payload_mass_kg)]
+    for L in envelope.rope_length_range_m:
+        for m in envelope.payload_mass_range_kg:
+            if (L, m) not in pts:
+                pts.append((L, m))
+    return pts
+
+
+def check_design_on_move(project, shaper, *, rtol: float = 1e-7) -> MoveCheck:
+    """Run ``shaper`` (on the drive-cycle grid) on the project's move at the nominal rig and envelope corners."""
+    env, drive, move = project.envelope, project.drive, project.move
+    T = drive["cycle_s"]
+    speed, _ = project_move(project)
+    shaped = shaper.apply(speed, T)
+    points = []
+    for L, m in check_points(env):
+        rig = env.rig(L, m)
+        hoist = None
+        if move["hoist_to_m"] is not None:
+            hoist = hoist_speeds(L, move["hoist_to_m"], drive["hoist_speed_m_s"], drive["hoist_accel_m_s2"], T,
+                                 start_s=move["hoist_start_s"])
+        plain = simulate(rig, speed, T, hoist_speed_m_s=hoist, rtol=rtol).residual_payload_sway_m
+        with_shaper = simulate(rig, shaped, T, hoist_speed_m_s=hoist, rtol=rtol).residual_payload_sway_m
+        points.append({"rope_length_m": float(L), "payload_mass_kg": float(m), "unshaped_m": plain,
+                       "shaped_m": with_shaper, "ratio": with_shaper / plain if plain > 0 else 0.0})
+    return MoveCheck(tuple(points), project.design["tolerance_pct"] / 100.0, move["hoist_to_m"] is not None,
+                     float(T * speed.sum()))
