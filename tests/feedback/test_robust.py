@@ -7,7 +7,7 @@ import pytest
 
 from stillhook.feedback.design import min_damping_ratio
 from stillhook.feedback.robust import MIN_DELAY_MARGIN_CYCLES, MIN_GAIN_MARGIN_DB, robust_feedback
-from stillhook.feedback.robustness import check_envelope, plant_system, point_poles
+from stillhook.feedback.robustness import check_envelope, check_point, plant_system, point_poles
 from stillhook.model.envelope import Envelope
 
 GRID = {"n_rope": 3, "n_payload": 3}
@@ -67,3 +67,18 @@ def test_row_without_a_passing_gain_gets_zero_gain_and_keeps_the_open_loop():
         for z in np.linalg.eigvals(plant_system(design, rig)[0]):
             assert np.min(np.abs(poles - z)) < 1e-6  # the delay line's repeated z = 0 splits by ~eps^(1/2)
         assert min_damping_ratio(poles, design.cycle_s) == pytest.approx(CRANE_B.damping_ratio, abs=1e-9)
+
+
+def test_demo_inclinometer_no_longer_takes_damping_at_short_rope_heavy_payload(demo_project):
+    # the point where the single-mass design left 0.0018 < open-loop 0.002 (1.2 m rope, 1600 kg payload)
+    env = demo_project.envelope
+    drive = demo_project.drive
+    design = robust_feedback(env, cycle_s=drive["cycle_s"], tau_s=drive["speed_loop_time_constant_s"],
+                             max_speed_m_s=drive["max_speed_m_s"], max_accel_m_s2=drive["max_accel_m_s2"],
+                             sensor={"kind": "hook_angle_rad", "noise_sd": 0.0, "resolution": 0.0, "delay_cycles": 0},
+                             rows=4, design_payload_mass_kg=150.0, target_damping_ratio=0.1, **GRID)
+    pt = check_point(design, env.rig(1.2, 1600.0))
+    assert pt.stable and pt.damping_ratio >= env.damping_ratio - 1e-9
+    check = check_envelope(design, env, 0.03, **GRID)
+    assert check.all_stable and check.worst.damping_ratio >= env.damping_ratio - 1e-9
+    assert any(r.feedback_on for r in design.rows)
