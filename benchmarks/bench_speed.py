@@ -18,7 +18,8 @@ Every command runs cold (``STILLHOOK_DESIGN_CACHE=off``: the design is computed)
 ``demo`` are also timed with the design in the disk cache, as a user's second command finds it.
 
 Run: ``python benchmarks/bench_speed.py`` (a few minutes on 2 cores; ``--skip-hard`` leaves out the
-hard envelope's design, about a minute).
+hard envelope's design; ``--before-src DIR`` also times every command on an earlier source tree in the
+same run, for before/after figures; ``--commands-only`` prints the command figures alone).
 """
 
 from __future__ import annotations
@@ -207,9 +208,10 @@ def sweep_figures(project) -> None:
             t_loop / t_proc, "x", f">= {target}", t_loop / t_proc >= target)
 
 
-def command_figures(t_ref: float, hard: bool) -> None:
+def command_figures(t_ref: float, hard: bool, before_src: str | None = None) -> None:
     print("commands as whole processes, over one per-rig solve_ivp simulation of the demo move "
           f"({1000 * t_ref:.0f} ms):")
+    before = None if before_src is None else dict(COLD, PYTHONPATH=before_src)
     with tempfile.TemporaryDirectory() as tmp:
         cases = [("stillhook compare demo", ["compare", "demo", "--json"], 10),
                  ("stillhook demo", ["demo", "--out", os.path.join(tmp, "demo")], 30),
@@ -219,6 +221,9 @@ def command_figures(t_ref: float, hard: bool) -> None:
             cases.append(("stillhook shaper hard envelope",
                           ["shaper", str(HERE / "projects" / "hard_envelope.toml"), "--json"], 250))
         for name, argv, target in cases:
+            if before is not None:  # the same command on the earlier source tree, cold, in this run
+                t = process_s(argv, before)
+                row(f"{name}, before ({t:.2f} s)", t / t_ref, "x", f"<= {target}", t / t_ref <= target)
             t = process_s(argv)
             row(f"{name} ({t:.2f} s)", t / t_ref, "x", f"<= {target}", t / t_ref <= target)
         # the same commands once the project's design is in the disk cache (a user's second command)
@@ -248,6 +253,10 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--skip-hard", action="store_true", help="leave out the hard envelope's design")
     ap.add_argument("--million", action="store_true", help="also sweep 10^6 random rigs")
+    ap.add_argument("--before-src", metavar="DIR",
+                    help="also time each command (cold) on an earlier source tree, e.g. DIR from "
+                         "`git archive <commit> | tar -x -C /tmp/before` and DIR = /tmp/before/src")
+    ap.add_argument("--commands-only", action="store_true", help="only the command figures")
     args = ap.parse_args()
     project = load_demo_project()
     speed, hoist = project_move(project, None)
@@ -255,8 +264,11 @@ def main() -> None:
     t_ref = best_of(lambda: simulate_solve_ivp(rig, speed, T, hoist_speed_m_s=hoist), 3)
     print(f"cores available: {len(os.sched_getaffinity(0))}; peak memory so far "
           f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MB")
-    simulation_figures(project, t_ref)
-    command_figures(t_ref, not args.skip_hard)
+    if not args.commands_only:
+        simulation_figures(project, t_ref)
+    command_figures(t_ref, not args.skip_hard, args.before_src)
+    if args.commands_only:
+        return
     sweep_figures(project)
     if args.million:
         million_figure()

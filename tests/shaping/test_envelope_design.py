@@ -10,7 +10,13 @@ import pytest
 from stillhook.model.lookup import schedule_rows
 from stillhook.project import load_project, project_from_dict
 from stillhook.shaping.design_cache import DESIGN_CACHE
-from stillhook.shaping.envelope_design import design_for_project, schedule_for_project, schedule_ratio
+from stillhook.shaping.envelope_design import (
+    design_for_project,
+    design_schedule,
+    design_workers,
+    schedule_for_project,
+    schedule_ratio,
+)
 from stillhook.shaping.residual_map import mode_shares, payload_participations, residual_ratio
 
 
@@ -174,3 +180,17 @@ def test_design_reports_its_stages_as_they_finish():
     total = 1 + schedule_row_count(p)
     assert schedule_row_count(p) == len(d.schedule.shapers) >= 2
     assert seen == [(k, total) for k in range(1, total + 1)]
+
+
+def test_schedule_rows_are_independent_so_any_worker_count_gives_the_same_schedule():
+    # each row is designed from its own span alone (no hint from its neighbour): the rows run in
+    # parallel processes and the schedule is byte-identical for one worker or several
+    p = project_from_dict({"rig": {"hook_mass_kg": 300.0, "rigging_length_m": 2.0, "rope_length_m": [2.0, 3.5],
+                                   "payload_mass_kg": 400.0},
+                           "drive": {"cycle_s": 0.01, "max_speed_m_s": 0.5, "max_accel_m_s2": 0.3},
+                           "design": {"tolerance_pct": 4.5}})
+    d = design_for_project(p)
+    one = design_schedule(p, d.shaper, workers=1)
+    two = design_schedule(p, d.shaper, workers=2)
+    assert json.dumps(one.as_dict()) == json.dumps(two.as_dict()) == json.dumps(d.schedule.as_dict())
+    assert design_workers(1) == 1 and design_workers(100) >= 1

@@ -2,6 +2,7 @@
 
 import numpy as np
 import pytest
+from scipy.optimize import linprog
 
 from stillhook.shaping import lp_solve
 
@@ -27,3 +28,43 @@ def test_an_lp_that_reaches_the_iteration_cap_is_solved_by_interior_point(monkey
                             options={"presolve": False, "primal_feasibility_tolerance": 1e-10})
     assert res.status == 0 and res.retried
     np.testing.assert_allclose(res.x, [2.0, 6.0], atol=1e-7)
+
+
+def _linprog_minimax(G):
+    """The same LP through scipy's linprog (the outside reference): min s, sum x = 1, x >= 0, G x <= s."""
+    k, n = G.shape
+    res = linprog(np.r_[np.zeros(n), 1.0], A_ub=np.hstack([G, -np.ones((k, 1))]), b_ub=np.zeros(k),
+                  A_eq=np.r_[np.ones(n), 0.0][None, :], b_eq=[1.0], bounds=[(0, None)] * (n + 1), method="highs")
+    return res.fun
+
+
+def test_cut_lp_of_the_identity_spreads_evenly():
+    # min max_i x_i over the simplex is 1/n at x_i = 1/n (symmetry and convexity; common fact, no source)
+    lp = lp_solve.CutLP(4)
+    lp.add_cuts(np.eye(4))
+    res = lp.solve()
+    assert res.status == 0 and not res.retried
+    np.testing.assert_allclose(res.x, 0.25, atol=1e-9)
+    assert res.s == pytest.approx(0.25)
+
+
+def test_cut_lp_warm_started_over_rounds_matches_linprog_from_scratch():
+    rng = np.random.default_rng(7)
+    G = rng.normal(size=(60, 12))
+    lp = lp_solve.CutLP(12)
+    for k in (20, 40, 60):  # cuts arrive in rounds, as in the cutting-plane loop
+        lp.add_cuts(G[k - 20:k])
+        res = lp.solve()
+        assert res.status == 0 and res.s == pytest.approx(_linprog_minimax(G[:k]), abs=1e-9)
+        assert np.all(G[:k] @ res.x <= res.s + 1e-9) and res.x.sum() == pytest.approx(1.0)
+
+
+def test_cut_lp_at_the_iteration_cap_is_solved_by_interior_point(monkeypatch):
+    monkeypatch.setattr(lp_solve, "MIN_ITERATIONS", 1)
+    monkeypatch.setattr(lp_solve, "ITERATIONS_PER_SIZE", 0)
+    G = np.random.default_rng(3).normal(size=(30, 8))
+    lp = lp_solve.CutLP(8)
+    lp.add_cuts(G)
+    res = lp.solve()
+    assert res.status == 0 and res.retried
+    assert res.s == pytest.approx(_linprog_minimax(G), abs=1e-6)

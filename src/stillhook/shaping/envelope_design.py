@@ -30,9 +30,13 @@ and the row spacing are derived here; the design margin is common practice, no s
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
+import multiprocessing
+import os
 from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -51,7 +55,8 @@ from stillhook.sim.drive_rate import check_below_half_rate
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
-    "design_for_project", "schedule_for_project", "schedule_ratio", "schedule_row_count", "schedule_rope_lengths",
+    "design_for_project", "design_schedule", "design_workers", "schedule_for_project", "schedule_ratio",
+    "schedule_row_count", "schedule_rope_lengths",
 ]
 
 #: Design to this fraction below the tolerance (fixed-point amplitude rounding, grid sampling).
@@ -65,6 +70,9 @@ CHECK_GRID = (41, 41)
 ROW_SPREAD = 0.08
 #: Each row's design span is widened by this fraction of its span on both sides (inside the range).
 ROW_OVERLAP = 0.05
+#: Schedule rows run in forked workers where the platform forks (no re-import of numpy/scipy per
+#: worker: ~1 s each on a loaded machine), else in freshly started ones.
+_POOL_CONTEXT = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn")
 #: Schedule rows skip trying a low-mode-only shaper when the high mode's share of the payload
 #: participation exceeds this multiple of the tolerance.
 _GATE_SHARE_PER_TOL = 2.0
@@ -324,30 +332,77 @@ def schedule_rope_lengths(env, max_rows: int) -> np.ndarray:
     return rows
 
 
-def _schedule(project, whole: Shaper, progress=None, total: int = 0) -> Schedule:
+def design_workers(n_rows: int) -> int:
+    """Processes for n_rows schedule rows: one per available core, never more than rows."""
+    try:
+        cores = len(os.sched_getaffinity(0))
+    except AttributeError:  # pragma: no cover - not on Linux
+        cores = os.cpu_count() or 1
+    return max(1, min(cores, n_rows))
+
+
+def _row_shaper(env, method: str, span_m, tol: float, tol_d: float, cycle: float, whole: Shaper):
+    """(shaper, high mode treated) for the rope-length span ``span_m`` of one schedule row.
+
+    A pure function of its arguments (no hint from a neighbouring row), so rows run in any order,
+    in any process, and give the same schedule for any worker count.
+    """
+    a, b = span_m
+    sub = _sub_envelope(env, a, b)
+    bands = _bands(sub, ROW_MIN_EDGE_RATIO)
+    _check_low_band(bands, cycle)
+    grid = (np.linspace(a, b, 5), np.linspace(*env.payload_mass_range_kg, CHECK_GRID[1]))
+    s, _, high, _ = _decide(sub, method, bands, tol, tol_d, env.damping_ratio, cycle, grid,
+                            start=whole, with_convolved=False, gate=True)
+    if s.duration_s > whole.duration_s and method in ("auto", "band"):
+        s = whole  # the whole-envelope shaper also serves this row and is shorter
+    return s, high
+
+
+def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], None] | None = None,
+                    total: int = 0, workers: int | None = None) -> Schedule:
+    """The length schedule of ``project`` (rows solved in parallel), ``whole`` its whole-envelope shaper.
+
+    Parameters
+    ----------
+    project : stillhook.project.Project
+    whole : Shaper
+        The whole-envelope shaper: each row's first upper bound, and its fallback when shorter.
+    progress : callable(done, total), optional
+        Called as each row finishes (done counts from 2: stage 1 is the whole-envelope shaper).
+    total : int
+        The ``total`` passed to ``progress``.
+    workers : int, optional
+        Processes (default :func:`design_workers`: one per available core). The result does not
+        depend on it: every row is designed from its own span alone.
+
+    Returns
+    -------
+    Schedule
+    """
     env, cycle = project.envelope, float(project.drive["cycle_s"])
     tol = project.design["tolerance_pct"] / 100.0
     tol_d = tol * (1.0 - DESIGN_MARGIN)
     method = project.design["method"]
     rows = schedule_rope_lengths(env, int(project.design["max_schedule_rows"]))
     probe = Schedule(rows, [whole] * rows.size, cycle, tol)
-    shapers, treated, hint = [], [], None
     lo_range, hi_range = env.rope_length_range_m
-    for a, b in probe.row_spans_m():
-        a, b = max(lo_range, a - ROW_OVERLAP * (b - a)), min(hi_range, b + ROW_OVERLAP * (b - a))
-        sub = _sub_envelope(env, a, b)
-        bands = _bands(sub, ROW_MIN_EDGE_RATIO)
-        _check_low_band(bands, cycle)
-        grid = (np.linspace(a, b, 5), np.linspace(*env.payload_mass_range_kg, CHECK_GRID[1]))
-        s, _, high, _ = _decide(sub, method, bands, tol, tol_d, env.damping_ratio, cycle, grid,
-                                start=whole, with_convolved=False, hint_s=hint, gate=True)
-        hint = s.duration_s
-        if s.duration_s > whole.duration_s and method in ("auto", "band"):
-            s = whole  # the whole-envelope shaper also serves this row and is shorter
-        shapers.append(s)
-        treated.append(high)
-        if progress is not None:
-            progress(1 + len(shapers), total)
+    spans = [(max(lo_range, a - ROW_OVERLAP * (b - a)), min(hi_range, b + ROW_OVERLAP * (b - a)))
+             for a, b in probe.row_spans_m()]
+    n_workers = design_workers(len(spans)) if workers is None else max(1, min(int(workers), len(spans)))
+    args = [(env, method, span, tol, tol_d, cycle, whole) for span in spans]
+    shapers, treated = [], []
+    with contextlib.ExitStack() as stack:
+        if n_workers > 1:
+            pool = stack.enter_context(ProcessPoolExecutor(n_workers, mp_context=_POOL_CONTEXT))
+            results = pool.map(_row_shaper, *zip(*args, strict=True))
+        else:
+            results = (_row_shaper(*a) for a in args)
+        for s, high in results:
+            shapers.append(s)
+            treated.append(high)
+            if progress is not None:
+                progress(1 + len(shapers), total)
     n_high = sum(treated)
     reason = (f"{rows.size} rows spaced evenly in log(rope + rigging length) (about {100 * ROW_SPREAD:g} % of "
               f"low-mode frequency per row); high mode treated in {n_high} of {rows.size} rows")
@@ -405,7 +460,7 @@ def schedule_for_project(project) -> Schedule:
     d = design_for_project(project)
     if d.schedule is not None:
         return d.schedule
-    return DESIGN_CACHE.get("project_design", _key(project, "schedule"), lambda: _schedule(project, d.shaper))
+    return DESIGN_CACHE.get("project_design", _key(project, "schedule"), lambda: design_schedule(project, d.shaper))
 
 
 def _design(project, progress=None) -> Design:
@@ -426,7 +481,7 @@ def _design(project, progress=None) -> Design:
     if progress is not None:
         progress(1, total)
     if project.design["schedule"]:
-        schedule = _schedule(project, shaper, progress, total)
+        schedule = design_schedule(project, shaper, progress=progress, total=total)
         Ls_dense = np.linspace(*env.rope_length_range_m, 4 * CHECK_GRID[0])
         sched_ratio = float(schedule_ratio(env, schedule, Ls_dense, grid[1]).max())
     return Design(shaper=shaper, schedule=schedule, high_mode_treated=high, reason=reason,

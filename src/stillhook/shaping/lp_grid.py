@@ -6,8 +6,8 @@ shortest impulse sequence with A_i >= 0, sum A_i = 1 and V(w) <= Vtol for every 
 With the impulse times fixed on a grid tau_j = j h (j = 0..N), V(w) = |sum_j x_j e_j(w)| with
 e_j(w) = exp(-zeta w (tau_N - tau_j)) exp(j w_d tau_j), so "V <= s" is convex in the amplitudes x
 and equals the family of half-planes Re(exp(-j phi) sum_j x_j e_j(w)) <= s over all phases phi.
-A linear program (HiGHS dual simplex, with a bounded effort and an interior-point retry:
-:func:`stillhook.shaping.lp_solve.solve_lp`) minimizes s subject to a growing set
+A linear program (HiGHS dual simplex warm-started as cuts arrive, with a bounded effort and an interior-point retry:
+:class:`stillhook.shaping.lp_solve.CutLP`) minimizes s subject to a growing set
 of such cuts (w, phi): after each solve V is evaluated on a dense frequency grid, its maxima are
 refined, and every maximum near or above Vtol adds the cut tangent at its own phase (Kelley's
 cutting-plane method). The LP's s is a lower bound on the true minimax, so "s > Vtol" proves the
@@ -31,7 +31,7 @@ import math
 
 import numpy as np
 
-from stillhook.shaping.lp_solve import solve_lp
+from stillhook.shaping.lp_solve import CutLP
 from stillhook.shaping.shaper import Shaper, worst_vibration
 
 __all__ = ["MAX_BASIS_ENTRIES", "ProblemTooLarge", "optimize_on_grid"]
@@ -123,25 +123,22 @@ def _minimax(prob: _Bands, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.
         raise ProblemTooLarge(n, wc.size)
     Ec = prob.basis(wc, tau)
     prob.seed_cuts(float(tau[-1]))
-    c = np.zeros(n + 1)
-    c[-1] = 1.0
-    A_eq = np.concatenate([np.ones(n), [0.0]])[None, :]
-    rows = np.empty((0, n))
+    lp, done = CutLP(n), 0
     for round_ in range(_MAX_CUT_ROUNDS):
-        if len(prob.cuts_w) > rows.shape[0]:
-            w, phi = np.array(prob.cuts_w[rows.shape[0]:]), np.array(prob.cuts_phi[rows.shape[0]:])
-            rows = np.vstack([rows, np.real(np.exp(-1j * phi)[:, None] * prob.basis(w, tau))])
-        A_ub = np.hstack([rows, -np.ones((rows.shape[0], 1))])
-        res = solve_lp(c, A_ub=A_ub, b_ub=np.zeros(rows.shape[0]), A_eq=A_eq, b_eq=[1.0],
-                       bounds=[(0.0, None)] * (n + 1), method="highs-ds", options={"presolve": False})
+        if len(prob.cuts_w) > done:
+            w, phi = np.array(prob.cuts_w[done:]), np.array(prob.cuts_phi[done:])
+            lp.add_cuts(np.real(np.exp(-1j * phi)[:, None] * prob.basis(w, tau)))
+            done = len(prob.cuts_w)
+        res = lp.solve()
         if res.status != 0:
             return None
-        x, s = res.x[:n], res.x[-1]
+        x, s = res.x, res.s
         if s > prob.tol * (1.0 + 1e-9):
             return None  # even the relaxation exceeds the tolerance
         if round_ >= _MARGINAL_ROUNDS and s > prob.tol * (1.0 - _MARGINAL):
             return None  # marginal: call it infeasible (costs at most one grid step of duration)
-        z = Ec @ x
+        # z = E x without BLAS: a threaded gemv waits ms for a second core on a loaded machine (measured)
+        z = np.einsum("ij,j->i", Ec, x)
         v = np.abs(z)
         peaks = _local_maxima(v, band)
         peaks = peaks[v[peaks] > prob.tol * _ANTICIPATE]
@@ -154,7 +151,7 @@ def _minimax(prob: _Bands, tau: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.
                 if den < 0:
                     wk = wc[k] + 0.5 * (y0 - y2) / den * (wc[k + 1] - wc[k])
                     wk = min(max(wk, wc[k - 1]), wc[k + 1])
-                    zk = prob.basis(np.array([wk]), tau)[0] @ x
+                    zk = np.einsum("j,j->", prob.basis(np.array([wk]), tau)[0], x)
                     w_new.append(float(wk))
                     z_new.append(zk)
         w_new, z_new = np.array(w_new), np.array(z_new)

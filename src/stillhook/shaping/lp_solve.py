@@ -1,14 +1,18 @@
 """Every linear program of the shaper design goes through :func:`solve_lp`: a bounded effort, a fallback.
 
-HiGHS dual simplex (scipy's ``linprog``) solves the cutting-plane LPs of :mod:`stillhook.shaping.lp_grid`
-in fewer iterations than rows + columns. On large, highly degenerate LPs (optimum near 0, many
-nearly parallel cuts) it can stall for many minutes; HiGHS interior point solves the same LP in
-seconds. So each LP first runs its own method with an iteration cap proportional to its size
-(:data:`ITERATIONS_PER_SIZE` x (rows + columns), deterministic: the same LP takes the same path on
-every machine), and an LP that reaches the cap is solved again by interior point. Both attempts also
-carry a wall-clock limit (:data:`TIME_LIMIT_S`) as a last guard; an LP that runs out of it counts as
-not solved (status != 0), which the callers treat as "no shaper on this grid" - conservative: a
+HiGHS dual simplex (scipy's ``linprog``; the public ``highspy`` for the cutting-plane LPs of
+:mod:`stillhook.shaping.lp_grid`) solves them in fewer iterations than rows + columns. On large, highly
+degenerate LPs (optimum near 0, many nearly parallel cuts) it can stall for many minutes; HiGHS interior
+point solves the same LP in seconds. So each LP first runs its own method with an iteration cap
+proportional to its size (:data:`ITERATIONS_PER_SIZE` x (rows + columns), deterministic: the same LP takes
+the same path on every machine), and an LP that reaches the cap is solved again by interior point. Both
+attempts also carry a wall-clock limit (:data:`TIME_LIMIT_S`) as a last guard; an LP that runs out of it
+counts as not solved (status != 0), which the callers treat as "no shaper on this grid" - conservative: a
 longer shaper, never an unchecked one.
+
+:class:`CutLP` holds one cutting-plane LP in a HiGHS instance (``highspy``) so that each round adds
+its cuts as rows and dual simplex restarts from the last optimal basis (a warm start) instead of
+solving from scratch through ``linprog``'s Python layer; same cap, retry and limit.
 
 Notes
 -----
@@ -18,9 +22,16 @@ HiGHS: Huangfu & Hall, "Parallelizing the dual revised simplex method", Math. Pr
 
 from __future__ import annotations
 
+import math
+import os
+import sys
+from dataclasses import dataclass
+
+import highspy
+import numpy as np
 from scipy.optimize import OptimizeResult, linprog
 
-__all__ = ["ITERATIONS_PER_SIZE", "MIN_ITERATIONS", "TIME_LIMIT_S", "solve_lp"]
+__all__ = ["ITERATIONS_PER_SIZE", "MIN_ITERATIONS", "TIME_LIMIT_S", "CutLP", "CutSolution", "solve_lp"]
 
 #: Simplex iteration cap per (rows + columns): the demo's LPs need at most ~1 (measured), the hard envelope's
 #: stalled one ran past 18,000 iterations (28 per size) before interior point solved it in 0.6 s.
@@ -60,3 +71,88 @@ def solve_lp(c, *, A_ub=None, b_ub=None, A_eq=None, b_eq=None, bounds=None, meth
                       options=dict(tolerances, time_limit=TIME_LIMIT_S))
         res.retried = True
     return res
+
+
+#: HiGHS prints a banner on the C stdout when the first instance of a process is built; it would
+#: land in ``--json`` output, so that instance is built with file descriptor 1 on the null device.
+_BANNER = {"shown": False}
+
+
+def _silent_highs() -> highspy.Highs:
+    if not _BANNER["shown"]:
+        sys.stdout.flush()
+        saved, null = os.dup(1), os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(null, 1)
+            h = highspy.Highs()
+        finally:
+            os.dup2(saved, 1)
+            os.close(saved)
+            os.close(null)
+        _BANNER["shown"] = True
+    else:
+        h = highspy.Highs()
+    for name, value in (("output_flag", False), ("presolve", "off"), ("solver", "simplex"),
+                        ("simplex_strategy", 1), ("threads", 1)):
+        h.setOptionValue(name, value)
+    return h
+
+
+@dataclass(frozen=True)
+class CutSolution:
+    """One solve of a :class:`CutLP`: ``status`` 0 solved (else not), amplitudes ``x``, bound ``s``."""
+
+    status: int
+    x: np.ndarray
+    s: float
+    retried: bool
+
+
+class CutLP:
+    """min s  s.t.  sum_j x_j = 1,  x >= 0,  s >= 0,  G x - s <= 0 for every cut row of G.
+
+    Parameters
+    ----------
+    n : int > 0
+        Number of amplitudes x_j (columns besides s).
+    """
+
+    def __init__(self, n: int):
+        self.n, self.rows = int(n), 0
+        inf = highspy.kHighsInf
+        self.h = h = _silent_highs()
+        h.addVars(self.n + 1, np.zeros(self.n + 1), np.full(self.n + 1, inf))
+        cost = np.zeros(self.n + 1)
+        cost[-1] = 1.0
+        h.changeColsCost(self.n + 1, np.arange(self.n + 1, dtype=np.int32), cost)
+        h.addRow(1.0, 1.0, self.n, np.arange(self.n, dtype=np.int32), np.ones(self.n))
+
+    def add_cuts(self, G: np.ndarray) -> None:
+        """Add the rows G x - s <= 0 (G: (k, n))."""
+        k = G.shape[0]
+        if k == 0:
+            return
+        values = np.hstack([G, -np.ones((k, 1))]).ravel()
+        starts = np.arange(k, dtype=np.int32) * (self.n + 1)
+        index = np.tile(np.arange(self.n + 1, dtype=np.int32), k)
+        self.h.addRows(k, np.full(k, -highspy.kHighsInf), np.zeros(k), values.size, starts, index, values)
+        self.rows += k
+
+    def _run(self, solver: str, cap: int) -> highspy.HighsModelStatus:
+        h = self.h
+        h.setOptionValue("solver", solver)
+        h.setOptionValue("simplex_iteration_limit", cap)
+        h.setOptionValue("time_limit", h.getRunTime() + TIME_LIMIT_S)  # the run clock may accumulate
+        h.run()
+        return h.getModelStatus()
+
+    def solve(self) -> CutSolution:
+        """Dual simplex from the last basis, capped as :func:`solve_lp`; interior point at the cap."""
+        cap = max(MIN_ITERATIONS, ITERATIONS_PER_SIZE * (self.rows + 1 + self.n + 1))
+        status, retried = self._run("simplex", cap), False
+        if status == highspy.HighsModelStatus.kIterationLimit:
+            status, retried = self._run("ipm", cap), True
+        if status != highspy.HighsModelStatus.kOptimal:
+            return CutSolution(2, np.zeros(self.n), math.inf, retried)
+        col = np.asarray(self.h.getSolution().col_value)
+        return CutSolution(0, col[:self.n], float(col[-1]), retried)
