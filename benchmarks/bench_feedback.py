@@ -17,7 +17,7 @@ import time
 import numpy as np
 
 from stillhook.feedback.controller import FeedbackController
-from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robust import feedback_for_project
 from stillhook.feedback.robustness import check_envelope
 from stillhook.firmware.feedback_model import FeedbackModel
 from stillhook.firmware.feedback_tables import feedback_tables, from_q31, to_q31

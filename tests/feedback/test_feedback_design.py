@@ -155,7 +155,7 @@ def test_each_row_reports_the_damping_its_gains_give(design):
 
 def test_rows_are_encoder_rope_lengths_and_plants_the_pendulum_lengths():
     # [rig] rope_offset_m: the schedule and the check use the encoder's rope length, the models L + offset
-    from stillhook.feedback.design import feedback_for_project
+    from stillhook.feedback.robust import feedback_for_project
     from stillhook.feedback.robustness import check_envelope
     from stillhook.project import project_from_dict
 

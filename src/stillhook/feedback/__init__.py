@@ -15,7 +15,9 @@ _EXPORTS = {
     "FeedbackDesign": "stillhook.feedback.design",
     "FeedbackRow": "stillhook.feedback.design",
     "design_feedback": "stillhook.feedback.design",
-    "feedback_for_project": "stillhook.feedback.design",
+    "feedback_for_project": "stillhook.feedback.robust",
+    "robust_feedback": "stillhook.feedback.robust",
+    "RowReport": "stillhook.feedback.robust",
     "min_damping_ratio": "stillhook.feedback.design",
 }
 

@@ -45,7 +45,7 @@ from stillhook.feedback.plant import DesignPlant, design_plant
 from stillhook.model.lookup import schedule_rows
 
 __all__ = ["FeedbackDesign", "FeedbackRow", "MIN_MEASUREMENT_VARIANCE", "POSITION_BANDWIDTH_RATIO",
-           "REACHABLE_FRACTION", "delayed_model", "design_feedback", "design_row", "feedback_for_project",
+           "REACHABLE_FRACTION", "delayed_model", "design_feedback", "design_row",
            "min_damping_ratio", "regulator_weights", "row_rope_lengths_m"]
 
 #: w_p = w_1 / POSITION_BANDWIDTH_RATIO (our choice, see the module docstring).
@@ -144,6 +144,13 @@ class FeedbackRow:
         The tuned q_s and lambda.
     regulator_damping_ratio, observer_damping_ratio : float
         Least damping ratio of the regulator poles and of the observer poles at the design rig.
+    design_payload_mass_kg : float
+        Payload mass of the design rig (the robust tuning may pick another mass than the project's).
+    aggressiveness : float in [0, 1]
+        Fraction of the damping target both weights were tuned to (1: the target; the robust tuning
+        backs it off; 0 with ``feedback_on = False``).
+    feedback_on : bool
+        False: the robust tuning found no gain that passes the row's checks; K = 0 (shaper alone there).
     """
 
     rope_length_m: float
@@ -158,12 +165,17 @@ class FeedbackRow:
     noise_ratio: float
     regulator_damping_ratio: float
     observer_damping_ratio: float
+    design_payload_mass_kg: float = math.nan
+    aggressiveness: float = 1.0
+    feedback_on: bool = True
 
     def as_dict(self) -> dict:
         return {"rope_length_m": self.rope_length_m, "gains": self.K[0].tolist(),
                 "observer_gains": self.M[:, 0].tolist(), "sway_weight": self.sway_weight,
                 "noise_ratio": self.noise_ratio, "regulator_damping_ratio": self.regulator_damping_ratio,
-                "observer_damping_ratio": self.observer_damping_ratio}
+                "observer_damping_ratio": self.observer_damping_ratio,
+                "design_payload_mass_kg": self.design_payload_mass_kg, "aggressiveness": self.aggressiveness,
+                "feedback_on": self.feedback_on}
 
 
 def regulator_weights(plant: DesignPlant) -> tuple[np.ndarray, np.ndarray]:
@@ -205,7 +217,8 @@ def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: floa
     lam, (L, P), zeta_o, _ = _tune(observer, target, T)
     M = P @ C_o.T @ np.linalg.inv(C_o @ P @ C_o.T + RN)
     L_row = plant.rig.rope_length_m if rope_length_m is None else float(rope_length_m)
-    return FeedbackRow(L_row, plant, K, A_o, B_o, C_o, M, L, 10.0**q_s, 10.0**lam, zeta_r, zeta_o)
+    return FeedbackRow(L_row, plant, K, A_o, B_o, C_o, M, L, 10.0**q_s, 10.0**lam, zeta_r, zeta_o,
+                       plant.rig.payload_mass_kg)
 
 
 def row_rope_lengths_m(rope_length_range_m: tuple[float, float], rows: int) -> np.ndarray:
@@ -227,6 +240,8 @@ class FeedbackDesign:
         (:func:`stillhook.model.lookup.schedule_rows`), as the shaper schedule does.
     D_drive, Db_drive : ndarray (2, 2), (2, 1)
         Sampled [dv, dp] model of the correction through the speed loop.
+    row_reports : tuple of stillhook.feedback.robust.RowReport
+        Filled by the robust tuning (:func:`stillhook.feedback.robust.robust_feedback`); empty here.
     """
 
     rows: list
@@ -242,6 +257,7 @@ class FeedbackDesign:
     target_damping_ratio: float
     D_drive: np.ndarray
     Db_drive: np.ndarray
+    row_reports: tuple = ()
 
     @property
     def rope_lengths_m(self) -> np.ndarray:
@@ -284,14 +300,3 @@ def design_feedback(envelope, *, cycle_s: float, tau_s: float, max_speed_m_s: fl
     return FeedbackDesign(out, "nearest", sensor["kind"], int(sensor["delay_cycles"]), variance, float(cycle_s),
                           float(tau_s), float(max_speed_m_s), float(max_accel_m_s2), float(design_payload_mass_kg),
                           float(target_damping_ratio), P.Phi[n:, n:].copy(), P.Gamma[n:].copy())
-
-
-def feedback_for_project(project) -> FeedbackDesign:
-    """:func:`design_feedback` from ``[drive]``, ``[sensor]`` and ``[feedback]`` of a project."""
-    fb, drive, env = project.feedback, project.drive, project.envelope
-    mass = fb["design_payload_mass_kg"]
-    return design_feedback(env, cycle_s=drive["cycle_s"], tau_s=drive["speed_loop_time_constant_s"],
-                           max_speed_m_s=drive["max_speed_m_s"], max_accel_m_s2=drive["max_accel_m_s2"],
-                           sensor=project.sensor, rows=fb["rows"],
-                           design_payload_mass_kg=env.nominal_payload_mass_kg if mass is None else mass,
-                           target_damping_ratio=fb["target_damping_ratio"])

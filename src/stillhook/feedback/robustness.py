@@ -38,17 +38,23 @@ from stillhook.feedback.plant import design_plant
 from stillhook.model.lookup import row_edges_m
 
 __all__ = ["EnvelopeCheck", "GridPoint", "check_envelope", "check_point", "closed_loop_matrix", "controller_system",
-           "envelope_grid", "loop_frequency_response", "margins", "plant_system"]
+           "envelope_grid", "loop_frequency_response", "margins", "plant_system", "point_poles"]
 
 
 def controller_system(design: FeedbackDesign, row: FeedbackRow):
-    """(A_c, B_c, C_c, D_c) of the row's controller from y to u (module docstring)."""
+    """(A_c, B_c, C_c, D_c) of the row's controller from y to u (module docstring).
+
+    A row without feedback (``row.feedback_on`` False, K = 0) puts out no correction, so its drive model d
+    stays at rest and is left out: only the observer remains (its integrator pole z = 1 is no loop pole).
+    """
     n = row.plant.n_rig
     n_o = row.A_o.shape[0]
     K_x, K_d = row.K[:, :n], row.K[:, n:]
     S = np.zeros((n, n_o))
     S[:, :n] = np.eye(n)
     E = np.eye(n_o) - row.M @ row.C_o
+    if not row.feedback_on:
+        return row.A_o @ E, row.A_o @ row.M, np.zeros((1, n_o)), np.zeros((1, 1))
     C_c = np.hstack([-K_x @ S @ E, -K_d])
     D_c = -K_x @ S @ row.M
     A_c = np.block([[row.A_o @ E + row.B_o @ C_c[:, :n_o], row.B_o @ C_c[:, n_o:]],
@@ -151,14 +157,20 @@ def envelope_grid(design: FeedbackDesign, envelope, n_rope: int = 9, n_payload: 
     return L, np.unique(np.append(m, design.design_payload_mass_kg))
 
 
-def check_point(design: FeedbackDesign, rig, rope_length_m: float | None = None) -> GridPoint:
+def point_poles(design: FeedbackDesign, row: FeedbackRow, rig) -> np.ndarray:
+    """Closed-loop poles of ``row``'s controller on one true rig (the cheap first test of a point)."""
+    return np.linalg.eigvals(closed_loop_matrix(plant_system(design, rig), controller_system(design, row)))
+
+
+def check_point(design: FeedbackDesign, rig, rope_length_m: float | None = None,
+                row_index: int | None = None) -> GridPoint:
     """Stability, damping and margins of the scheduled loop on one true rig.
 
     ``rope_length_m``: the encoder's rope length that picks the row (default the rig's pendulum length,
-    the same without a rope offset).
+    the same without a rope offset). ``row_index``: check that row instead of the scheduled one.
     """
     L = rig.rope_length_m if rope_length_m is None else float(rope_length_m)
-    k = design.row_for(L)
+    k = design.row_for(L) if row_index is None else int(row_index)
     row = design.rows[k]
     plant, ctrl = plant_system(design, rig), controller_system(design, row)
     poles = np.linalg.eigvals(closed_loop_matrix(plant, ctrl))

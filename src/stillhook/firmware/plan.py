@@ -38,7 +38,7 @@ import numpy as np
 from stillhook.cautions import CAUTIONS, FEEDBACK_CAUTIONS
 from stillhook.checks import check_identifier
 from stillhook.errors import ConfigError, EmitError
-from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robust import feedback_for_project
 from stillhook.feedback.robustness import check_envelope
 from stillhook.firmware.feedback_tables import feedback_tables
 from stillhook.firmware.notch_tables import choose_notch_format

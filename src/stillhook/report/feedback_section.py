@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from stillhook.cautions import FEEDBACK_CAUTIONS
-from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robust import feedback_for_project
 from stillhook.feedback.robustness import check_envelope, envelope_grid
 from stillhook.model.lookup import row_edges_m
 from stillhook.report.html import esc, figure, num, table
@@ -84,16 +84,20 @@ def section_feedback(study, png) -> str:
     out = ["<h2>Feedback: closed-loop sway damping</h2>",
            f"<p>Observer + state feedback from the sensor <code>{esc(s['kind'])}</code> (noise sd {num(s['noise_sd'])},"
            f" resolution {num(s['resolution'])}, delay {s['delay_cycles']} cycles), drive speed loop "
-           f"{num(design.tau_s)} s, {len(design.rows)} rope-length rows designed at payload "
-           f"{num(design.design_payload_mass_kg)} kg for damping ratio {num(design.target_damping_ratio)}.</p>",
+           f"{num(design.tau_s)} s, {len(design.rows)} rope-length rows designed from payload "
+           f"{num(design.design_payload_mass_kg)} kg for damping ratio {num(design.target_damping_ratio)}, each row "
+           f"re-tuned until it is stable with margins and no less damped than open loop over its rope span and "
+           f"the payload range ({sum(r.feedback_on for r in design.rows)} of {len(design.rows)} rows with "
+           f"feedback; the others have zero gain: shaper alone).</p>",
            f'<div class="{verdict}">Envelope check ({len(check.points)} points, both sides of every row switch): '
            f"{'all stable' if check.all_stable else 'UNSTABLE somewhere'}; least closed-loop damping ratio "
            f"{num(w.damping_ratio)} at rope {num(w.rope_length_m)} m, payload {num(w.payload_mass_kg)} kg "
            f"(accepted &ge; {num(check.min_damping_ratio)}); smallest delay margin "
            f"{num(check.delay_margin_cycles, '.3g')} cycles.</div>",
-           table(["rope m", "regulator damping", "observer damping"],
-                 [[num(r.rope_length_m), num(r.regulator_damping_ratio), num(r.observer_damping_ratio)]
-                  for r in design.rows], {0, 1, 2}),
+           table(["rope m", "feedback", "design payload kg", "x target", "regulator damping", "observer damping"],
+                 [[num(r.rope_length_m), "on" if r.feedback_on else "off (zero gain)",
+                   num(r.design_payload_mass_kg), num(r.aggressiveness), num(r.regulator_damping_ratio),
+                   num(r.observer_damping_ratio)] for r in design.rows], {0, 2, 3, 4, 5}),
            figure(png.get("feedback_damping_map"), "closed-loop damping map",
                   "Least damping ratio of all closed-loop poles (both sway modes, observer, drive) at each envelope "
                   "point, each rope length using its scheduled row.")]

@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 from stillhook.errors import ConfigError
 from stillhook.feedback.controller import FeedbackController
-from stillhook.feedback.design import feedback_for_project
+from stillhook.feedback.robust import feedback_for_project
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.sim.closed_loop import ClosedLoopResult, Sensor, run_closed_loop
 from stillhook.sim.profiles import project_move
