@@ -7,6 +7,12 @@ import io
 import json
 import os
 
+# One BLAS thread per test worker: pytest-xdist already runs one worker per core, and BLAS threads on
+# top of that oversubscribe the cores (small Riccati solves ran ~10x slower). Set before numpy loads.
+os.environ["OPENBLAS_NUM_THREADS"] = os.environ.get("OPENBLAS_NUM_THREADS", "1")
+os.environ["OMP_NUM_THREADS"] = os.environ.get("OMP_NUM_THREADS", "1")
+os.environ["MKL_NUM_THREADS"] = os.environ.get("MKL_NUM_THREADS", "1")
+
 import pytest
 
 from stillhook.cli import main

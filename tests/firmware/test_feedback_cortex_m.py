@@ -32,6 +32,12 @@ def cortex_run(tmp_path_factory):
     return build, r.stdout
 
 
+@pytest.fixture(scope="module")
+def feedback_tables() -> FeedbackTables:
+    """The example project's feedback tables, designed once for this module."""
+    return plan_for_project(load_project(FOLDER / "project.toml")).feedback
+
+
 def _figures(text: str, what: str) -> tuple[float, float, float]:
     m = re.search(r"^# cortex-m3: " + re.escape(what) + r" instructions per cycle: min (\d+) mean ([\d.]+) max (\d+)$",
                   text, re.MULTILINE)
@@ -50,7 +56,7 @@ def test_cortex_m_output_is_the_python_reference_byte_for_byte(cortex_run):
     assert f"# cortex-m3: cycles run: {len(statuses)}" in out
 
 
-def test_instructions_per_cycle_shaper_alone_and_with_feedback(cortex_run):
+def test_instructions_per_cycle_shaper_alone_and_with_feedback(cortex_run, feedback_tables):
     build, out = cortex_run
     s_min, s_mean, s_max = _figures(out, "shaper alone (lookup, select, step)")
     b_min, b_mean, b_max = _figures(out, "shaper + feedback")
@@ -61,7 +67,7 @@ def test_instructions_per_cycle_shaper_alone_and_with_feedback(cortex_run):
     assert fb_mean == pytest.approx(b_mean - s_mean, abs=0.02)
     # the cost the emitted header states (products x a per-product figure) matches this measurement; the
     # measured mean includes the cycles with the feedback off, so weight by the cycles it was on
-    t: FeedbackTables = plan_for_project(load_project(FOLDER / "project.toml")).feedback
+    t = feedback_tables
     header = (build / "emit" / "sway_feedback.h").read_text()
     stated = FEEDBACK_INSTRUCTIONS_PER_PRODUCT * feedback_products(t)
     assert f"about {stated} Cortex-M3 instructions" in header
@@ -70,12 +76,12 @@ def test_instructions_per_cycle_shaper_alone_and_with_feedback(cortex_run):
     assert stated * on == pytest.approx(fb_mean, rel=0.15)
 
 
-def test_feedback_block_flash_holds_its_tables_and_needs_no_static_ram(cortex_run):
+def test_feedback_block_flash_holds_its_tables_and_needs_no_static_ram(cortex_run, feedback_tables):
     _, out = cortex_run
     m = re.search(r"feedback block flash: (\d+) bytes \(const tables (\d+)\), static RAM: (\d+) bytes", out)
     assert m
     flash, tables, ram = (int(g) for g in m.groups())
-    t = plan_for_project(load_project(FOLDER / "project.toml")).feedback
+    t = feedback_tables
     table_bytes = 4 * (t.obs_next.size + t.du_row.size + t.vhat_row.size + t.ref_next.size)  # int32 entries
     assert flash > tables >= table_bytes and ram == 0
     inst = int(re.search(r"RAM of the feedback instance bytes: (\d+)", out).group(1))
