@@ -15,21 +15,9 @@ from __future__ import annotations
 
 import argparse
 import math
-import time
 
 import numpy as np
-
-
-def best_of(fn, repeat: int):
-    """(best wall s, CPU s of that run, result)."""
-    best = None
-    for _ in range(repeat):
-        w0, c0 = time.perf_counter(), time.process_time()
-        out = fn()
-        w, c = time.perf_counter() - w0, time.process_time() - c0
-        if best is None or w < best[0]:
-            best = (w, c, out)
-    return best
+from timing import best_of
 
 
 def damped(t, c, wd, sigma, a, b):

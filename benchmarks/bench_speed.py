@@ -36,6 +36,7 @@ from pathlib import Path
 
 import cffi
 import numpy as np
+from timing import best_of
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
@@ -88,15 +89,6 @@ void floor_rk4(long n, long nrk, double T, const double *acc, const double *L, c
 """
 
 
-def best_of(fn, n: int) -> float:
-    best = math.inf
-    for _ in range(n):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
-
-
 class Floor:
     """The bare compiled loop, built once; times one rig-move with inputs prepared outside the timing."""
 
@@ -126,7 +118,7 @@ class Floor:
         ffi = self.ffi
         args = [ffi.from_buffer("double[]", a) for a in (tr.accel_m_s2, ho.start_m, ho.speed_m_s, ho.accel_m_s2, p)]
         buf = ffi.from_buffer("double[]", out, require_writable=True)
-        return best_of(lambda: self.lib.floor_rk4(n_cycles, n_rk, T, *args, buf), repeats)
+        return best_of(lambda: self.lib.floor_rk4(n_cycles, n_rk, T, *args, buf), repeats)[0]
 
 
 #: Subprocesses design afresh (cold) unless a run asks for the design disk cache (warm).
@@ -167,7 +159,7 @@ def simulation_figures(project, t_ref: float) -> None:
         floor = Floor(tmp)
         t_floor = floor.seconds(rig, speed, hoist, T, n_cycles)
         t_floor_batch = sum(floor.seconds(r, speed, hoist, T, n_cycles, repeats=1) for r in rigs)
-    t_one = best_of(lambda: simulate(rig, speed, T, hoist_speed_m_s=hoist), 5)
+    t_one = best_of(lambda: simulate(rig, speed, T, hoist_speed_m_s=hoist), 5)[0]
     t0 = time.perf_counter()
     for b in range(0, 1024, 128):
         simulate_batch(rigs[b:b + 128], [speed], T, hoist_speed_m_s=hoist)
@@ -269,7 +261,7 @@ def main() -> None:
     project = load_demo_project()
     speed, hoist = project_move(project, None)
     rig, T = project.envelope.nominal_rig, project.drive["cycle_s"]
-    t_ref = best_of(lambda: simulate_solve_ivp(rig, speed, T, hoist_speed_m_s=hoist), 3)
+    t_ref = best_of(lambda: simulate_solve_ivp(rig, speed, T, hoist_speed_m_s=hoist), 3)[0]
     print(f"cores available: {len(os.sched_getaffinity(0))}; peak memory so far "
           f"{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024:.0f} MB")
     if not args.commands_only:

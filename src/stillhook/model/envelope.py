@@ -113,6 +113,15 @@ class Envelope:
         (L_lo, L_hi), (m_lo, m_hi) = self.rope_length_range_m, self.payload_mass_range_kg
         return np.linspace(L_lo, L_hi, n_rope), np.linspace(m_lo, m_hi, n_payload)
 
+    def corners(self) -> list[tuple[float, float]]:
+        """The envelope's distinct corners (rope length m, payload mass kg), rope-major."""
+        out = []
+        for L in self.rope_length_range_m:
+            for m in self.payload_mass_range_kg:
+                if (L, m) not in out:
+                    out.append((L, m))
+        return out
+
     # -- maps and bands --------------------------------------------------------------------
     def frequency_map_hz(self, rope_lengths_m, payload_masses_kg) -> np.ndarray:
         """Mode frequencies (Hz) on the grid rope_lengths x payload_masses.

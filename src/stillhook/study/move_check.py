@@ -20,7 +20,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from stillhook.sim.dynamics import simulate
+from stillhook.sim.dynamics import simulate_batch
 from stillhook.sim.profiles import hoist_speeds, project_move
 
 __all__ = ["MoveCheck", "check_design_on_move", "check_points"]
@@ -61,12 +61,8 @@ class MoveCheck:
 
 def check_points(envelope) -> list[tuple[float, float]]:
     """The nominal rig first, then the envelope's distinct corners (rope length, payload mass)."""
-    pts = [(envelope.nominal_rope_length_m, envelope.nominal_payload_mass_kg)]
-    for L in envelope.rope_length_range_m:
-        for m in envelope.payload_mass_range_kg:
-            if (L, m) not in pts:
-                pts.append((L, m))
-    return pts
+    nominal = (envelope.nominal_rope_length_m, envelope.nominal_payload_mass_kg)
+    return [nominal] + [c for c in envelope.corners() if c != nominal]
 
 
 def check_design_on_move(project, shaper, *, rtol: float = 1e-7) -> MoveCheck:
@@ -82,8 +78,8 @@ def check_design_on_move(project, shaper, *, rtol: float = 1e-7) -> MoveCheck:
         if move["hoist_to_m"] is not None:
             hoist = hoist_speeds(L, move["hoist_to_m"], drive["hoist_speed_m_s"], drive["hoist_accel_m_s2"], T,
                                  start_s=move["hoist_start_s"])
-        plain = simulate(rig, speed, T, hoist_speed_m_s=hoist, rtol=rtol).residual_payload_sway_m
-        with_shaper = simulate(rig, shaped, T, hoist_speed_m_s=hoist, rtol=rtol).residual_payload_sway_m
+        plain, with_shaper = (r.residual_payload_sway_m for r in
+                              simulate_batch(rig, [speed, shaped], T, hoist_speed_m_s=hoist, rtol=rtol))
         points.append({"rope_length_m": float(L), "payload_mass_kg": float(m), "unshaped_m": plain,
                        "shaped_m": with_shaper, "ratio": with_shaper / plain if plain > 0 else 0.0})
     return MoveCheck(tuple(points), project.design["tolerance_pct"] / 100.0, move["hoist_to_m"] is not None,

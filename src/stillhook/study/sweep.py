@@ -120,16 +120,6 @@ def random_points(envelope, n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarr
     return rng.uniform(L0, L1, n) if L1 > L0 else np.full(n, L0), rng.uniform(m0, m1, n) if m1 > m0 else np.full(n, m0)
 
 
-def corner_points(envelope) -> list[tuple[float, float]]:
-    """The envelope's distinct corners (rope length, payload mass)."""
-    out = []
-    for L in envelope.rope_length_range_m:
-        for m in envelope.payload_mass_range_kg:
-            if (L, m) not in out:
-                out.append((L, m))
-    return out
-
-
 # -- the sweep -----------------------------------------------------------------------------------
 def _chunk_residuals(batch: ModalBatch, runs, settle_s: float, rows) -> np.ndarray:
     """Residual sway (designs, r) of one chunk of rigs; runs[i][row] are design i's AccelRuns."""
@@ -244,7 +234,7 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     designs, notes = project_designs(project, speed, keys=keys, design=design, notch=notch)
     batch = ModalBatch.from_envelope(env, L, m)
     res = residuals(batch, designs, T, progress=progress)
-    checks = spot_checks(project, designs, corner_points(env), T) if check else []
+    checks = spot_checks(project, designs, env.corners(), T) if check else []
     if check and any(d.key in UNCHECKED_KEYS for d in designs):
         notes.append("spot checks: the notch is not re-run on the nonlinear simulator (its ring-out makes "
                      "that slow); the linear model's error is second order in the sway amplitude")
