@@ -41,14 +41,17 @@ def notch_helpers(plan) -> tuple[str, ...]:
     return ("LINT",)
 
 
-_Q15 = """IF reset THEN
+#: Both formats start the same way: a reset clears the cascade state and the output.
+_RESET = """IF reset THEN
     FOR k := 0 TO 4 * STAGES - 1 DO
         state[k] := 0;
     END_FOR;
     speed_out := 0;
     RETURN;
 END_IF;
-v := INT_TO_DINT(speed_in);
+"""
+
+_Q15 = _RESET + """v := INT_TO_DINT(speed_in);
 FOR n := 0 TO STAGES - 1 DO
     c := 5 * n; (* {b0, b1, b2, a1, a2} *)
     s := 4 * n; (* {x1, x2, y1, y2} *)
@@ -72,14 +75,7 @@ END_FOR;
 speed_out := DINT_TO_INT(v);
 """
 
-_Q31 = """IF reset THEN
-    FOR k := 0 TO 4 * STAGES - 1 DO
-        state[k] := 0;
-    END_FOR;
-    speed_out := 0;
-    RETURN;
-END_IF;
-v := DINT_TO_LINT(speed_in);
+_Q31 = _RESET + """v := DINT_TO_LINT(speed_in);
 FOR n := 0 TO STAGES - 1 DO
     c := 5 * n; (* {b0, b1, b2, a1, a2} *)
     s := 4 * n; (* {x1, x2, y1, y2} *)
