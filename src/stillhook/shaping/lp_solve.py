@@ -109,7 +109,11 @@ class CutSolution:
 
 
 class CutLP:
-    """min s  s.t.  sum_j x_j = 1,  x >= 0,  s >= 0,  G x - s <= 0 for every cut row of G.
+    """min s  s.t.  sum_j x_j = 1,  x >= 0,  s >= 0,  G x - c s <= 0 for every cut row of G (scale c > 0, default 1).
+
+    Some columns may be switched off (x_j = 0, :meth:`restrict`) and the scales c changed
+    (:meth:`rescale`): one instance then serves several neighbouring LPs of a search (time grids that
+    share candidate impulse times), each solve warm-started from the last basis.
 
     Parameters
     ----------
@@ -126,17 +130,37 @@ class CutLP:
         cost[-1] = 1.0
         h.changeColsCost(self.n + 1, np.arange(self.n + 1, dtype=np.int32), cost)
         h.addRow(1.0, 1.0, self.n, np.arange(self.n, dtype=np.int32), np.ones(self.n))
+        self.active = np.ones(self.n, dtype=bool)
+        self.scales = np.zeros(0)
 
-    def add_cuts(self, G: np.ndarray) -> None:
-        """Add the rows G x - s <= 0 (G: (k, n))."""
+    def add_cuts(self, G: np.ndarray, scales: np.ndarray | None = None) -> None:
+        """Add the rows G x - c s <= 0 (G: (k, n); c: ``scales`` (k,) > 0, default ones)."""
         k = G.shape[0]
         if k == 0:
             return
-        values = np.hstack([G, -np.ones((k, 1))]).ravel()
+        c = np.ones(k) if scales is None else np.asarray(scales, dtype=float)
+        values = np.hstack([G, -c[:, None]]).ravel()
         starts = np.arange(k, dtype=np.int32) * (self.n + 1)
         index = np.tile(np.arange(self.n + 1, dtype=np.int32), k)
         self.h.addRows(k, np.full(k, -highspy.kHighsInf), np.zeros(k), values.size, starts, index, values)
         self.rows += k
+        self.scales = np.concatenate([self.scales, c])
+
+    def restrict(self, active: np.ndarray) -> None:
+        """Allow only the columns where ``active`` (bool (n,)) is True; the others are held at x_j = 0."""
+        active = np.asarray(active, dtype=bool)
+        changed = np.nonzero(active != self.active)[0].astype(np.int32)
+        if changed.size:
+            upper = np.where(active[changed], highspy.kHighsInf, 0.0)
+            self.h.changeColsBounds(changed.size, changed, np.zeros(changed.size), upper)
+            self.active = active.copy()
+
+    def rescale(self, scales: np.ndarray) -> None:
+        """Set every cut row's scale c (array (rows,) > 0); the basis is kept for the next solve."""
+        scales = np.asarray(scales, dtype=float)
+        for r in np.nonzero(scales != self.scales)[0]:
+            self.h.changeCoeff(int(r) + 1, self.n, -float(scales[r]))  # row 0 is sum x = 1
+        self.scales = scales.copy()
 
     def _run(self, solver: str, cap: int) -> highspy.HighsModelStatus:
         h = self.h
