@@ -33,6 +33,7 @@ from scipy.optimize import brentq, minimize_scalar
 
 from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import DesignError
+from stillhook.shaping.design_cache import DESIGN_CACHE
 
 __all__ = [
     "Shaper", "TIME_MERGE_S", "check_cycle", "check_damping", "check_frequency",
@@ -362,6 +363,12 @@ def worst_vibration(shaper: Shaper, f_lo_hz: float, f_hi_hz: float, damping_rati
     if lo > hi:
         raise DesignError(f"band [{lo:g}, {hi:g}] Hz has lo > hi; allowed: lo <= hi")
     zeta = check_damping(damping_ratio)
+    # the same check recurs (a band design's verification, then the project's report of it): kept per shaper
+    key = (shaper.times_s.tobytes(), shaper.amplitudes.tobytes(), lo, hi, zeta)
+    return DESIGN_CACHE.get("worst_vibration", key, lambda: _worst_sampled(shaper, lo, hi, zeta))
+
+
+def _worst_sampled(shaper: Shaper, lo: float, hi: float, zeta: float) -> tuple[float, float]:
     n = int(min(2_000_000, max(64, math.ceil((hi - lo) / _grid_step_hz(shaper)) + 1)))
     f = np.linspace(lo, hi, n)
     v = shaper.vibration_at_hz(f, zeta)
