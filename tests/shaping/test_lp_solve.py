@@ -107,3 +107,26 @@ def test_degenerate_lp_at_the_cap_is_solved_by_interior_point_without_crossover(
     assert res.status == 0 and res.retried
     assert abs(res.s) < 1e-7
     np.testing.assert_allclose(res.x, [0.5, 0.5], atol=1e-6)
+
+
+@pytest.mark.parametrize("method", ["highs", "highs-ds", "highs-ipm"])
+def test_solve_lp_with_equalities_and_free_variables_matches_linprog(method):
+    # the cycle-grid LP's shape (equalities, free and bounded variables) against scipy's linprog
+    rng = np.random.default_rng(5)
+    n = 8
+    A_ub, b_ub = rng.normal(size=(12, n)), rng.uniform(1.0, 2.0, 12)
+    A_eq, b_eq = np.vstack([np.ones(n), rng.normal(size=n)]), np.array([1.0, 0.3])
+    c = rng.normal(size=n)
+    bounds = [(None, None), (-1.0, 1.0)] + [(0.0, None)] * (n - 3) + [(0.0, 2.0)]
+    ref = linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method="highs")
+    res = lp_solve.solve_lp(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method=method)
+    assert ref.status == 0 and res.status == 0 and not res.retried
+    assert res.fun == pytest.approx(ref.fun, abs=1e-8)
+    np.testing.assert_allclose(A_eq @ res.x, b_eq, atol=1e-8)
+    assert np.all(A_ub @ res.x <= b_ub + 1e-8)
+
+
+def test_solve_lp_reports_an_infeasible_lp():
+    # x >= 0 and x1 + x2 <= -1 cannot both hold
+    res = lp_solve.solve_lp(np.ones(2), A_ub=np.array([[1.0, 1.0]]), b_ub=np.array([-1.0]))
+    assert res.status == 2

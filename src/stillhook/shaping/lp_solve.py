@@ -1,7 +1,8 @@
 """Every linear program of the shaper design goes through :func:`solve_lp`: a bounded effort, a fallback.
 
-HiGHS dual simplex (scipy's ``linprog``; the public ``highspy`` for the cutting-plane LPs of
-:mod:`stillhook.shaping.lp_grid`) solves them in fewer iterations than rows + columns. On large, highly
+HiGHS dual simplex (through its public ``highspy`` interface; :func:`solve_lp` keeps the conventions of
+``scipy.optimize.linprog``, whose ~0.2 s of import the design does without) solves them in fewer iterations
+than rows + columns. On large, highly
 degenerate LPs (optimum near 0, many nearly parallel cuts) it can stall for many minutes; HiGHS interior
 point solves the same LP in seconds. So each LP first runs its own method with an iteration cap
 proportional to its size (:data:`ITERATIONS_PER_SIZE` x (rows + columns), deterministic: the same LP takes
@@ -14,7 +15,7 @@ longer shaper, never an unchecked one.
 
 :class:`CutLP` holds one cutting-plane LP in a HiGHS instance (``highspy``) so that each round adds
 its cuts as rows and dual simplex restarts from the last optimal basis (a warm start) instead of
-solving from scratch through ``linprog``'s Python layer; same cap, retry and limit.
+solving from scratch; same cap, retry and limit.
 
 Notes
 -----
@@ -31,9 +32,8 @@ from dataclasses import dataclass
 
 import highspy
 import numpy as np
-from scipy.optimize import OptimizeResult, linprog
 
-__all__ = ["ITERATIONS_PER_SIZE", "MIN_ITERATIONS", "TIME_LIMIT_S", "CutLP", "CutSolution", "solve_lp"]
+__all__ = ["ITERATIONS_PER_SIZE", "MIN_ITERATIONS", "TIME_LIMIT_S", "CutLP", "CutSolution", "LPResult", "solve_lp"]
 
 #: Simplex iteration cap per (rows + columns): of the ~1,500 cutting-plane LPs of the demo, the small gantry and
 #: the hard envelope (benchmarks/projects) 99 % need at most 1.1 and all but one at most 2.0 (measured); the hard
@@ -45,35 +45,85 @@ MIN_ITERATIONS = 2_000
 TIME_LIMIT_S = 60.0
 
 
+@dataclass(frozen=True)
+class LPResult:
+    """One :func:`solve_lp`: ``status`` 0 solved, 1 iteration cap, 2 infeasible, 3 unbounded, 4 other (as
+    ``scipy.optimize.linprog``); ``x`` the solution, ``fun`` the objective, ``retried`` True when interior point
+    solved it after the cap."""
+
+    status: int
+    x: np.ndarray
+    fun: float
+    retried: bool
+
+
+#: HiGHS method names (as ``linprog``'s) -> HiGHS options.
+_METHODS = {"highs": {"solver": "choose"}, "highs-ds": {"solver": "simplex", "simplex_strategy": 1},
+            "highs-ipm": {"solver": "ipm"}}
+_STATUS = {highspy.HighsModelStatus.kOptimal: 0, highspy.HighsModelStatus.kIterationLimit: 1,
+           highspy.HighsModelStatus.kInfeasible: 2, highspy.HighsModelStatus.kUnbounded: 3}
+
+
+def _add_rows(h: highspy.Highs, A, lower, upper) -> None:
+    A = np.atleast_2d(np.asarray(A, dtype=float))
+    rows, cols = np.nonzero(A)
+    starts = np.searchsorted(rows, np.arange(A.shape[0])).astype(np.int32)
+    h.addRows(A.shape[0], np.asarray(lower, dtype=float), np.asarray(upper, dtype=float), rows.size, starts,
+              cols.astype(np.int32), A[rows, cols])
+
+
+def _run_lp(c, A_ub, b_ub, A_eq, b_eq, bounds, options: dict) -> tuple[int, np.ndarray, float]:
+    """One HiGHS run of min c x s.t. A_ub x <= b_ub, A_eq x = b_eq, bounds (linprog's conventions)."""
+    h = _silent_highs()
+    for name, value in dict(options, output_flag=False, threads=1).items():
+        h.setOptionValue(name, value)
+    n, inf = len(c), highspy.kHighsInf
+    bounds = [(0.0, None)] * n if bounds is None else bounds
+    lo = np.array([-inf if b[0] is None else b[0] for b in bounds], dtype=float)
+    hi = np.array([inf if b[1] is None else b[1] for b in bounds], dtype=float)
+    h.addVars(n, lo, hi)
+    h.changeColsCost(n, np.arange(n, dtype=np.int32), np.asarray(c, dtype=float))
+    if A_ub is not None and len(A_ub):
+        _add_rows(h, A_ub, np.full(len(A_ub), -inf), b_ub)
+    if A_eq is not None and len(A_eq):
+        _add_rows(h, A_eq, b_eq, b_eq)
+    h.run()
+    status = _STATUS.get(h.getModelStatus(), 4)
+    x = np.asarray(h.getSolution().col_value, dtype=float)
+    return status, x, float(np.dot(c, x)) if x.size == n else math.nan
+
+
 def solve_lp(c, *, A_ub=None, b_ub=None, A_eq=None, b_eq=None, bounds=None, method: str = "highs-ds",
-             options: dict | None = None) -> OptimizeResult:
-    """``scipy.optimize.linprog`` with an iteration cap and an interior-point retry.
+             options: dict | None = None) -> LPResult:
+    """min c x  s.t.  A_ub x <= b_ub, A_eq x = b_eq, bounds, by HiGHS with an iteration cap and an interior-point
+    retry (the conventions of ``scipy.optimize.linprog``: bounds a list of (lo, hi), None for no bound,
+    default (0, None)).
 
     Parameters
     ----------
     c, A_ub, b_ub, A_eq, b_eq, bounds
-        As for ``linprog``.
-    method : str
-        First method (a HiGHS method name).
+        As for ``linprog`` (dense arrays).
+    method : {"highs", "highs-ds", "highs-ipm"}
+        First method.
     options : dict, optional
-        Extra HiGHS options for the first attempt; the tolerances among them carry over to the retry.
+        HiGHS options for the first attempt (``presolve`` True/False, tolerances by HiGHS name); the tolerances
+        carry over to the retry.
 
     Returns
     -------
-    OptimizeResult
-        ``linprog``'s result; ``result.retried`` is True when interior point solved it after the cap.
+    LPResult
     """
     rows = sum(0 if A is None else len(A) for A in (A_ub, A_eq))
     cap = max(MIN_ITERATIONS, ITERATIONS_PER_SIZE * (rows + len(c)))
-    first = dict(options or {}, maxiter=cap, time_limit=TIME_LIMIT_S)
-    res = linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method=method, options=first)
-    res.retried = False
-    if res.status == 1 and method != "highs-ipm":
-        tolerances = {k: v for k, v in (options or {}).items() if k.endswith("_tolerance")}
-        res = linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method="highs-ipm",
-                      options=dict(tolerances, time_limit=TIME_LIMIT_S))
-        res.retried = True
-    return res
+    opts = {k: ("on" if v else "off") if k == "presolve" else v for k, v in (options or {}).items()}
+    limits = {"simplex_iteration_limit": cap, "ipm_iteration_limit": cap, "time_limit": TIME_LIMIT_S}
+    status, x, fun = _run_lp(c, A_ub, b_ub, A_eq, b_eq, bounds, dict(_METHODS[method], **opts, **limits))
+    if status == 1 and method != "highs-ipm":
+        tolerances = {k: v for k, v in opts.items() if k.endswith("_tolerance")}
+        status, x, fun = _run_lp(c, A_ub, b_ub, A_eq, b_eq, bounds,
+                                 dict(_METHODS["highs-ipm"], **tolerances, time_limit=TIME_LIMIT_S))
+        return LPResult(status, x, fun, True)
+    return LPResult(status, x, fun, False)
 
 
 #: HiGHS prints a banner on the C stdout when the first instance of a process is built; it would
