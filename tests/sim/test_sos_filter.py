@@ -7,7 +7,6 @@ import pytest
 from scipy.signal import sosfilt
 
 from stillhook.errors import ConfigError
-from stillhook.sim import kernel
 from stillhook.sim.sos_filter import sos_filter
 
 ENGINES = ["compiled", "numpy"]
