@@ -60,8 +60,9 @@ def lqr_gain(A, B, Q, R) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     numpy.linalg.LinAlgError, ValueError
         No stabilizing solution (e.g. the Hamiltonian pencil has eigenvalues on the unit circle).
     """
-    A, B = np.atleast_2d(np.asarray(A, dtype=float)), np.atleast_2d(np.asarray(B, dtype=float))
-    Q, R = np.atleast_2d(np.asarray(Q, dtype=float)), np.atleast_2d(np.asarray(R, dtype=float))
+    # fresh copies as python-control makes them: BLAS rounds by memory layout, and the same layout gives
+    # the same doubles as dlqr (checked on the design plants)
+    A, B, Q, R = (np.array(m, ndmin=2, dtype=float) for m in (A, B, Q, R))
     S = solve_discrete_are(A, B, Q, R)
     K = solve(B.T @ S @ B + R, B.T @ S @ A)
     return K, S, eigvals(A - B @ K)
@@ -96,8 +97,7 @@ def kalman_predictor(A, G, C, QN, RN) -> tuple[np.ndarray, np.ndarray, np.ndarra
     numpy.linalg.LinAlgError, ValueError
         No stabilizing solution.
     """
-    A, G, C = (np.atleast_2d(np.asarray(m, dtype=float)) for m in (A, G, C))
-    QN, RN = np.atleast_2d(np.asarray(QN, dtype=float)), np.atleast_2d(np.asarray(RN, dtype=float))
+    A, G, C, QN, RN = (np.array(m, ndmin=2, dtype=float) for m in (A, G, C, QN, RN))
     # the regulator equations of the dual system (A', C', G QN G', RN): K_dual = L'
     L_T, P, poles = lqr_gain(A.T, C.T, G @ QN @ G.T, RN)
     return L_T.T, P, poles
