@@ -20,9 +20,8 @@ HELP = "residual sway of the unshaped move and of each design over the whole env
 #: Mirrors stillhook.study.sweep.DEFAULT_GRID (kept here so --help imports nothing heavy).
 _DEFAULT_GRID = (21, 21)
 
-EXAMPLES = """  stillhook sweep demo
-  stillhook sweep my_crane.toml --grid 41 41 --designs shaper,notch --json
-  stillhook sweep my_crane.toml --samples 100000 --seed 7   # also draws [uncertainty] ranges
+EXAMPLES = """  stillhook sweep demo --grid 41 41 --designs shaper,notch --json
+  stillhook sweep my_crane.toml --samples 100000 --seed 7    # draws [uncertainty] ranges too
 """
 
 
