@@ -234,6 +234,26 @@ def test_cli_text_and_json(tmp_path, capsys):
     assert "--nominal-rig applies to --samples only" in capsys.readouterr().err
 
 
+def test_cli_json_streams_the_same_text_as_the_whole_document(tmp_path, capsys):
+    # the CLI streams the rigs (bounded memory at 10^6); the text must be to_json of the whole result
+    from stillhook.cautions import CAUTIONS
+    from stillhook.outputs import to_json
+    from stillhook.study.ranking import rank_designs, ranking_sentence
+
+    path = tmp_path / "u.toml"
+    path.write_text(demo_project_text() + UNCERTAIN)
+    assert main(["sweep", str(path), "--samples", "30", "--designs", "unshaped,shaper", "--no-check", "--json"]) == 0
+    out = capsys.readouterr().out
+    project = project_from_bytes(path.read_bytes(), "u.toml")
+    r = sweep_project(project, samples=30, keys=("unshaped", "shaper"), check=False)
+    ranked = rank_designs([(k, s["label"], s["worst_ratio"], s["added_s"]) for k, s in r.summary().items()
+                           if k != "unshaped"], r.tolerance)
+    whole = {"project": "u", "input_digest_sha256": project.digest, **r.as_dict(),
+             "ranking": [x.as_dict() for x in ranked], "verdict": ranking_sentence(ranked, r.tolerance),
+             "cautions": list(CAUTIONS)}
+    assert out == to_json(whole)
+
+
 def test_help_shows_an_integer_seed(capsys):
     with pytest.raises(SystemExit):
         main(["sweep", "--help"])

@@ -12,7 +12,6 @@ from stillhook.cli._common import (
     format_table,
     load_project_arg,
     print_cautions,
-    print_json,
 )
 
 HELP = "residual sway of the unshaped move and of each design over the whole envelope (fast linear sweep)"
@@ -88,6 +87,7 @@ def print_uncertain(result) -> None:
 def run(args: argparse.Namespace) -> int:
     from stillhook.cautions import CAUTIONS
     from stillhook.errors import ConfigError
+    from stillhook.outputs import write_json
     from stillhook.study.ranking import rank_designs, ranking_sentence
     from stillhook.study.sweep import DEFAULT_GRID, DESIGN_KEYS, sweep_project
 
@@ -106,10 +106,10 @@ def run(args: argparse.Namespace) -> int:
     summary = result.summary()
     ranked = rank_designs([(k, s["label"], s["worst_ratio"], s["added_s"]) for k, s in summary.items()
                            if k != "unshaped"], result.tolerance)
-    if args.json:
-        print_json({"project": project.name, "input_digest_sha256": project.digest, **result.as_dict(),
+    if args.json:  # the rigs are streamed: a million of them never sit in memory as one list
+        write_json({"project": project.name, "input_digest_sha256": project.digest, **result.as_dict(points=False),
                     "ranking": [r.as_dict() for r in ranked], "verdict": ranking_sentence(ranked, result.tolerance),
-                    "cautions": list(CAUTIONS)})
+                    "cautions": list(CAUTIONS)}, sys.stdout, streamed={"points": result.iter_points()})
         return 0
     mv, env = result.move, project.envelope
     (L0, L1), (m0, m1) = env.rope_length_range_m, env.payload_mass_range_kg

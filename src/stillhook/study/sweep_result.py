@@ -182,14 +182,17 @@ class SweepResult:
         """Largest spot-check disagreement over rigs and designs (fraction of unshaped), 0 if none."""
         return max((c.disagreement(k) for c in self.spot_checks for k in c.linear_m), default=0.0)
 
-    def as_dict(self) -> dict:
-        """JSON-ready result (deterministic key order)."""
-        keys = self.keys
-        varied = list(self.varied.items())
-        points = [{"rope_length_m": float(L), "payload_mass_kg": float(m),
-                   **{k: float(v[n]) for k, v in varied},
+    def iter_points(self):
+        """Every rig as a JSON-ready dict (rope, payload, the sampled parameters, residual per design), one at a
+        time (``outputs.write_json`` streams a million of them in bounded memory)."""
+        keys, varied = self.keys, list(self.varied.items())
+        for n, (L, m) in enumerate(zip(self.rope_length_m.tolist(), self.payload_mass_kg.tolist(), strict=True)):
+            yield {"rope_length_m": L, "payload_mass_kg": m, **{k: float(v[n]) for k, v in varied},
                    "residual_payload_sway_m": {k: float(self.residual_m[k][n]) for k in keys}}
-                  for n, (L, m) in enumerate(zip(self.rope_length_m, self.payload_mass_kg, strict=True))]
+
+    def as_dict(self, *, points: bool = True) -> dict:
+        """JSON-ready result (deterministic key order); ``points=False`` leaves ``"points"`` empty (to stream
+        :meth:`iter_points` in its place)."""
         return {
             "move": dict(self.move),
             "tolerance": self.tolerance,
@@ -212,5 +215,5 @@ class SweepResult:
             },
             "rig": {"nominal": dict(self.nominal_rig), "sampled": dict(self.uncertainty)},
             "notes": list(self.notes),
-            "points": points,
+            "points": list(self.iter_points()) if points else [],
         }
