@@ -1,10 +1,21 @@
-"""How many worker processes a parallel step uses: the one rule for the sweep and the design schedule."""
+"""How many worker processes a parallel step uses: the one rule for the sweep, the design schedule and the figures."""
 
 from __future__ import annotations
 
+import multiprocessing
 import os
+from concurrent.futures import ProcessPoolExecutor
 
-__all__ = ["worker_count"]
+from stillhook.errors import ConfigError
+
+__all__ = ["POOL_CONTEXT", "WORKERS_VARIABLE", "process_pool", "worker_count"]
+
+#: Environment variable that caps the worker processes of every parallel step.
+WORKERS_VARIABLE = "STILLHOOK_WORKERS"
+
+#: Worker processes are forked where the platform forks (the parent's imports of numpy, scipy and
+#: matplotlib are inherited instead of repeated: ~1 s per worker on a loaded machine), else spawned.
+POOL_CONTEXT = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn")
 
 
 def worker_count(n_tasks: int, requested: int | None = None) -> int:
@@ -13,13 +24,36 @@ def worker_count(n_tasks: int, requested: int | None = None) -> int:
     Parameters
     ----------
     n_tasks : int >= 0
-        Tasks to spread (rows, chunks of rigs).
+        Tasks to spread (rows, chunks of rigs, figures).
     requested : int >= 1, optional
-        A caller's choice (tests pin it); default: the cores this process may run on.
+        A caller's choice (tests pin it); default: ``$STILLHOOK_WORKERS`` when set (a whole number >= 1,
+        e.g. 1 where something else already runs one process per core), else the cores this process may
+        run on.
+
+    Raises
+    ------
+    ConfigError
+        ``$STILLHOOK_WORKERS`` is not a whole number >= 1.
     """
+    if requested is None:
+        requested = _workers_from_environment()
     if requested is None:
         try:
             requested = len(os.sched_getaffinity(0))
         except AttributeError:  # pragma: no cover - not on Linux
             requested = os.cpu_count() or 1
     return max(1, min(int(requested), int(n_tasks)))
+
+
+def _workers_from_environment() -> int | None:
+    text = os.environ.get(WORKERS_VARIABLE, "").strip()
+    if not text:
+        return None
+    if not text.isdigit() or int(text) < 1:
+        raise ConfigError(f"{WORKERS_VARIABLE} = {text!r}; allowed: a whole number >= 1 (worker processes)")
+    return int(text)
+
+
+def process_pool(n_workers: int) -> ProcessPoolExecutor:
+    """A pool of ``n_workers`` processes started the one way every parallel step starts them (:data:`POOL_CONTEXT`)."""
+    return ProcessPoolExecutor(n_workers, mp_context=POOL_CONTEXT)
