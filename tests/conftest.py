@@ -12,6 +12,10 @@ import os
 os.environ["OPENBLAS_NUM_THREADS"] = os.environ.get("OPENBLAS_NUM_THREADS", "1")
 os.environ["OMP_NUM_THREADS"] = os.environ.get("OMP_NUM_THREADS", "1")
 os.environ["MKL_NUM_THREADS"] = os.environ.get("MKL_NUM_THREADS", "1")
+# Likewise one process per parallel step (design rows, sweep chunks, figures) under pytest-xdist; tests of
+# the pools pin their worker counts.
+if os.environ.get("PYTEST_XDIST_WORKER"):
+    os.environ.setdefault("STILLHOOK_WORKERS", "1")
 
 import pytest
 

@@ -187,3 +187,40 @@ def test_light_commands_do_not_load_heavy_libraries(argv):
             f"and m.split('.')[0] not in {allowed!r}))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip().splitlines()[-1] == "[]", f"stillhook {' '.join(argv)} loaded {out.strip()}"
+
+
+#: Too slow to load for what the commands use them for (scipy.signal: ~0.5-1 s of array-API doc machinery;
+#: python-control imports it and more): our own SOS filter, decimator and DARE gains replace them.
+AVOIDABLE = ("scipy.signal", "control")
+#: The python-control views of the rig and of the notch cascade: the only modules that may load them.
+CONTROL_VIEWS = ("stillhook.model.statespace", "stillhook.notch.transfer")
+
+
+def _loaded(modules: list[str]) -> list[str]:
+    """Which of AVOIDABLE are among ``modules`` (a package counts when any of its submodules is)."""
+    return sorted({a for a in AVOIDABLE for m in modules if m == a or m.startswith(a + ".")})
+
+
+def test_library_loads_scipy_signal_and_control_only_for_the_control_views():
+    # every library module but the two python-control views, imported in a fresh process
+    wanted = sorted(m for m in MODULES if m not in CONTROL_VIEWS and not m.startswith("stillhook.cli")
+                    and m != "stillhook.__main__")
+    code = (f"import importlib, sys\nfor m in {wanted!r}: importlib.import_module(m)\n"
+            "print(sorted(sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    loaded = _loaded(ast.literal_eval(out.strip().splitlines()[-1]))
+    assert loaded == [], f"importing the library (without {CONTROL_VIEWS}) loaded {loaded}"
+
+
+def test_compare_demo_loads_neither_scipy_signal_nor_control():
+    code = ("import sys, contextlib, io\n"
+            "from stillhook.cli import main\n"
+            "with contextlib.redirect_stdout(io.StringIO()) as buf:\n"
+            "    main(['compare', 'demo', '--json'])\n"
+            "assert buf.getvalue().lstrip().startswith('{'), buf.getvalue()[:200]\n"
+            "print(sorted(sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    modules = ast.literal_eval(out.strip().splitlines()[-1])
+    assert "stillhook.study.compare" in modules and "highspy" in modules  # the command really ran (the design's LPs)
+    assert "scipy.optimize" not in modules  # ~0.2 s of import: the shaping path does without it
+    assert _loaded(modules) == [], f"stillhook compare demo --json loaded {_loaded(modules)}"

@@ -4,6 +4,7 @@ import math
 
 import numpy as np
 import pytest
+from scipy.linalg import eigh
 
 from stillhook.errors import RigError
 from stillhook.model.rig import Rig, mode_frequencies_rad_s
@@ -114,3 +115,18 @@ def test_bad_rig_is_one_clear_error(kwargs, word):
     with pytest.raises(RigError, match=word) as info:
         Rig(**base)
     assert "allowed" in str(info.value)
+
+
+def test_modes_equal_scipy_generalized_eigh_over_extreme_rigs():
+    # Reference: scipy.linalg.eigh(K, M) (LAPACK sygvd); the rig reduces by Cholesky itself (Golub & Van Loan,
+    # Matrix Computations, 4th ed., 2013, section 8.7) so that modelling a rig does not load scipy.linalg.
+    rng = np.random.default_rng(7)
+    for m1, m2, L1, L2 in zip(rng.uniform(0.5, 5000, 300), 10 ** rng.uniform(-3, 4, 300), rng.uniform(0.1, 60, 300),
+                              rng.uniform(0.05, 15, 300), strict=True):
+        rig = Rig(m1, m2, L1, L2)
+        w2_ref, phi_ref = eigh(rig.stiffness_matrix(), rig.mass_matrix())
+        phi_ref = phi_ref * np.where(phi_ref[0] < 0, -1.0, 1.0)
+        got = [m.omega_rad_s ** 2 for m in rig.modes()]
+        np.testing.assert_allclose(got, w2_ref, rtol=1e-12)
+        shapes = np.array([m.shape for m in rig.modes()]).T
+        np.testing.assert_allclose(shapes / np.abs(shapes).max(), phi_ref / np.abs(phi_ref).max(), atol=1e-10)

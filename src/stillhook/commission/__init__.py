@@ -10,6 +10,7 @@ _EXPORTS = {
     "read_log": "stillhook.commission.logs",
     "parse_log": "stillhook.commission.logs",
     "matrix_pencil": "stillhook.commission.pencil",
+    "decimate_zero_phase": "stillhook.commission.decimation",
     "fit_damped_sinusoids": "stillhook.commission.damped_fit",
     "identify_log": "stillhook.commission.identify",
     "identify_record": "stillhook.commission.identify",

@@ -1,12 +1,13 @@
 """Identify the sway modes in a log: free-sway segments, matrix pencil, nonlinear refinement.
 
 Per segment and per sway signal: remove the mean, low-pass and decimate to about
-:data:`SAMPLES_PER_PERIOD` samples per period of the highest frequency of interest (scipy's polyphase
-FIR filter, zero phase), estimate the poles by the matrix pencil, reject spurious poles (real poles,
-damping below :data:`MIN_DAMPING` or above :data:`MAX_DAMPING`, frequency outside the band of interest,
-amplitude under :data:`MIN_AMPLITUDE_SHARE` of the largest), then refine the at most two strongest
-modes by nonlinear least squares on the raw samples (:mod:`stillhook.commission.damped_fit`). When
-several signals are logged each mode is reported from the signal that fixes its frequency best.
+:data:`SAMPLES_PER_PERIOD` samples per period of the highest frequency of interest (Kaiser-windowed
+sinc FIR, zero phase: :mod:`stillhook.commission.decimation`), estimate the poles by the matrix pencil,
+reject spurious poles (real poles, damping below :data:`MIN_DAMPING` or above :data:`MAX_DAMPING`,
+frequency outside the band of interest, amplitude under :data:`MIN_AMPLITUDE_SHARE` of the largest),
+then refine the at most two strongest modes by nonlinear least squares on the raw samples
+(:mod:`stillhook.commission.damped_fit`). When several signals are logged each mode is reported from
+the signal that fixes its frequency best.
 
 A free-sway segment has the trolley at rest (|speed| < :data:`REST_SPEED_M_S`) and the rope steady (it
 moves less than :data:`ROPE_STEADY_M` over any :data:`ROPE_WINDOW_S`); it must last
@@ -24,9 +25,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.signal import resample_poly
 
 from stillhook.commission.damped_fit import fit_damped_sinusoids
+from stillhook.commission.decimation import decimate_zero_phase
 from stillhook.commission.logs import SwayLog
 from stillhook.commission.pencil import matrix_pencil
 from stillhook.errors import InputFileError
@@ -148,7 +149,7 @@ def identify_record(t_s, y, band_hz=DEFAULT_BAND_HZ, *, max_modes: int = 2):
     dt = float(np.median(np.diff(t)))
     f_lo, f_hi = band_hz
     q = max(1, int(1.0 / (dt * SAMPLES_PER_PERIOD * f_hi)))
-    xd = resample_poly(x, 1, q) if q > 1 else x  # zero-phase FIR low-pass, then keep every q-th sample
+    xd = decimate_zero_phase(x, q) if q > 1 else x  # zero-phase FIR low-pass, then keep every q-th sample
     trim = min(10, xd.size // 10) if q > 1 else 0  # the filter's edge transients
     xd = xd[trim: xd.size - trim][:MAX_PENCIL_SAMPLES]
     t0 = trim * q * dt

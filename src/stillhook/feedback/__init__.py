@@ -19,6 +19,8 @@ _EXPORTS = {
     "robust_feedback": "stillhook.feedback.robust",
     "RowReport": "stillhook.feedback.robust",
     "min_damping_ratio": "stillhook.feedback.design",
+    "lqr_gain": "stillhook.feedback.riccati",
+    "kalman_predictor": "stillhook.feedback.riccati",
 }
 
 __all__ = sorted(_EXPORTS)

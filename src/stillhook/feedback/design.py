@@ -13,11 +13,14 @@ Penalizing dp makes the loop return the trolley to the operator's reference path
 still ends exactly at its target. q_s is the smallest weight (log scan, then bisection) that gives every
 regulator pole a damping ratio >= ``target_damping_ratio``.
 
-Observer. A steady-state Kalman filter (python-control ``dlqe``) on [x_rig, v] plus the sensor's delay
-line, with disturbance w (a horizontal acceleration of the load, variance lambda R) and measurement noise
-R = noise_sd^2 + resolution^2 / 12; lambda is the smallest ratio that gives every observer pole the same
-damping target. The step uses the current estimate x^[k|k] = x^[k|k-1] + M (y[k] - C x^[k|k-1]) with
-M = P C' (C P C' + R)^-1 (dlqe's predictor gain is L = A M).
+Observer. A steady-state Kalman filter (:func:`stillhook.feedback.riccati.kalman_predictor`) on [x_rig, v]
+plus the sensor's delay line, with disturbance w (a horizontal acceleration of the load, variance
+lambda R) and measurement noise R = noise_sd^2 + resolution^2 / 12; lambda is the smallest ratio that
+gives every observer pole the same damping target. The step uses the current estimate
+x^[k|k] = x^[k|k-1] + M (y[k] - C x^[k|k-1]) with M = P C' (C P C' + R)^-1 (the predictor gain is L = A M).
+
+Both gains come from the discrete algebraic Riccati equation (:mod:`stillhook.feedback.riccati`,
+scipy.linalg.solve_discrete_are); python-control's dlqr / dlqe are the tests' reference.
 
 Why LQR/LQE tuned to a damping ratio rather than pole placement: a two-mode plant seen through one sensor
 with a delay has more poles than a designer can sensibly place by hand, and placed poles carry no margin
@@ -37,11 +40,11 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import control
 import numpy as np
 
 from stillhook.errors import ConfigError, DesignError
 from stillhook.feedback.plant import DesignPlant, design_plant
+from stillhook.feedback.riccati import kalman_predictor, lqr_gain
 from stillhook.model.lookup import schedule_rows
 
 __all__ = ["FeedbackDesign", "FeedbackRow", "MIN_MEASUREMENT_VARIANCE", "POSITION_BANDWIDTH_RATIO",
@@ -203,16 +206,16 @@ def design_row(plant: DesignPlant, delay_cycles: int, measurement_variance: floa
     R = np.eye(1)
 
     def regulator(q):
-        K, _S, E = control.dlqr(plant.Phi, plant.Gamma, q * Q_sway + Q_pos, R)
-        return np.asarray(K), np.asarray(E)
+        K, _S, E = lqr_gain(plant.Phi, plant.Gamma, q * Q_sway + Q_pos, R)
+        return K, E
 
     q_s, K, zeta_r, _ = _tune(regulator, target, T)
     A_o, B_o, C_o, G_o = delayed_model(plant, delay_cycles)
     RN = np.array([[max(measurement_variance, MIN_MEASUREMENT_VARIANCE)]])
 
     def observer(lam):
-        L, P, E = control.dlqe(A_o, G_o, C_o, lam * RN, RN)
-        return (np.asarray(L), np.asarray(P)), np.asarray(E)
+        L, P, E = kalman_predictor(A_o, G_o, C_o, lam * RN, RN)
+        return (L, P), E
 
     lam, (L, P), zeta_o, _ = _tune(observer, target, T)
     M = P @ C_o.T @ np.linalg.inv(C_o @ P @ C_o.T + RN)

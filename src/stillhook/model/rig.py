@@ -14,7 +14,9 @@ Linearized equations (small angles, prescribed trolley motion, constant L1)::
 
     b = [(m1 + m2) L1, m2 L2]
 
-The modes solve the symmetric generalized eigenproblem K phi = w^2 M phi, whose
+The modes solve the symmetric generalized eigenproblem K phi = w^2 M phi (reduced to a standard one by
+the Cholesky factor M = G G^T: (G^-1 K G^-T) y = w^2 y, phi = G^-T y, as LAPACK's sygv does; numpy
+alone, so a command that models a rig does not load scipy.linalg, ~0.2 s), whose
 characteristic polynomial is the double-pendulum frequency equation
 
     w^4 - (1 + R)(g/L1 + g/L2) w^2 + (1 + R) g^2 / (L1 L2) = 0,    R = m2 / m1.
@@ -28,7 +30,8 @@ Notes
 Frequency equation and mode shapes: Kibble & Berkshire, *Classical Mechanics*, 5th ed.,
 Imperial College Press, 2004 (normal modes of the double pendulum). The same roots appear in
 Singhose, Kim & Kenison, "Input shaping control of double-pendulum bridge crane oscillations",
-ASME J. Dyn. Sys. Meas. Control 130(3):034504, 2008 (from memory).
+ASME J. Dyn. Sys. Meas. Control 130(3):034504, 2008 (from memory). Cholesky reduction of the
+symmetric-definite problem: Golub & Van Loan, *Matrix Computations*, 4th ed., 2013, section 8.7.
 """
 
 from __future__ import annotations
@@ -37,7 +40,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.linalg import eigh
 
 from stillhook.checks import check_quantity
 from stillhook.errors import RigError
@@ -169,7 +171,10 @@ class Rig:
     # -- modes ----------------------------------------------------------------------------
     def _eig(self) -> tuple[np.ndarray, np.ndarray]:
         """Return (w^2 ascending, Phi mass-normalized, columns) for the two-mode rig."""
-        w2, phi = eigh(self.stiffness_matrix(), self.mass_matrix())
+        G = np.linalg.cholesky(self.mass_matrix())  # M = G G^T
+        G_inv = np.linalg.inv(G)
+        w2, y = np.linalg.eigh(G_inv @ self.stiffness_matrix() @ G_inv.T)
+        phi = G_inv.T @ y  # Phi^T M Phi = Y^T Y = I
         phi = phi * np.where(phi[0] < 0, -1.0, 1.0)  # sign convention: theta1 >= 0
         return w2, phi
 

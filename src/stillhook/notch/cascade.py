@@ -14,9 +14,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.signal import sosfilt
 
 from stillhook.errors import ConfigError
+from stillhook.sim.sos_filter import sos_filter
 
 __all__ = ["NotchDesign", "NotchSection", "TAIL_DECAY", "sos_response"]
 
@@ -160,7 +160,7 @@ class NotchDesign:
         return max(1, math.ceil(math.log(decay) / math.log(self.max_pole_radius)))
 
     def apply(self, speed_m_s, cycle_s: float | None = None, *, decay: float = TAIL_DECAY) -> np.ndarray:
-        """Filter a sampled speed command (scipy.signal.sosfilt, zero initial state).
+        """Filter a sampled speed command (:func:`stillhook.sim.sos_filter.sos_filter`, zero initial state).
 
         The command is first padded with ``ring_out_samples(decay)`` zeros so the filter rings
         out: after the padding each filter mode has decayed to ``decay`` (default 1e-4) of its
@@ -186,7 +186,7 @@ class NotchDesign:
                               f"for a {self.cycle_s:g} s cycle; allowed: cycle_s = {self.cycle_s:g}")
         if not 0.0 < decay < 1.0:
             raise ConfigError(f"decay = {decay!r} is out of range; allowed: 0 < decay < 1")
-        return sosfilt(self.sos, np.concatenate([v, np.zeros(self.ring_out_samples(decay))]))
+        return sos_filter(self.sos, np.concatenate([v, np.zeros(self.ring_out_samples(decay))]))
 
     def as_dict(self) -> dict:
         """JSON-ready description (deterministic key order)."""

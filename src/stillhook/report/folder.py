@@ -10,9 +10,13 @@ from stillhook.report.study import Study, build_study, report_json
 __all__ = ["report_files", "write_report"]
 
 
-def report_files(study: Study) -> dict[str, str | bytes]:
-    """``{relative name: text or bytes}``: figures/* (PNG and SVG), report.json and report.html."""
-    figs = figure_files(study.figures)
+def report_files(study: Study, figures: dict[str, bytes] | None = None) -> dict[str, str | bytes]:
+    """``{relative name: text or bytes}``: figures/* (PNG and SVG), report.json and report.html.
+
+    ``figures`` are the study's figure files when the caller has drawn them already
+    (:func:`stillhook.report.figures.submit_figures`); by default they are drawn here.
+    """
+    figs = figure_files(study.figures) if figures is None else figures
     files: dict[str, str | bytes] = {f"figures/{k}": v for k, v in figs.items()}
     files["report.json"] = to_json(report_json(study))
     files["report.html"] = render_html(study, {n: figs[f"{n}.png"] for n in sorted(study.figures)})

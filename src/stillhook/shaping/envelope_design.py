@@ -33,9 +33,7 @@ from __future__ import annotations
 import contextlib
 import json
 import math
-import multiprocessing
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -51,7 +49,7 @@ from stillhook.shaping.design_store import load_or_make
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
-from stillhook.workers import worker_count
+from stillhook.workers import process_pool, worker_count
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "POOL_MIN_SECONDS", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP",
@@ -70,12 +68,9 @@ CHECK_GRID = (41, 41)
 ROW_SPREAD = 0.08
 #: Each row's design span is widened by this fraction of its span on both sides (inside the range).
 ROW_OVERLAP = 0.05
-#: Schedule rows run in forked workers where the platform forks (no re-import of numpy/scipy per
-#: worker: ~1 s each on a loaded machine), else in freshly started ones.
-_POOL_CONTEXT = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn")
-#: Estimated design time of one schedule row per impulse of the whole-envelope shaper (s): measured 3.3-4 ms
+#: Estimated design time of one schedule row per impulse of the whole-envelope shaper (s): measured 2-3.3 ms
 #: on the demo, the small gantry and the hard envelope (benchmarks/projects), one core of the shared machine.
-ROW_SECONDS_PER_IMPULSE = 3.5e-3
+ROW_SECONDS_PER_IMPULSE = 3e-3
 #: Schedule rows go to a process pool only when their estimated serial time exceeds this (s): starting
 #: the workers costs ~0.1 s of CPU (fork, copy-on-write, pickling) and a loaded machine may have no free core.
 POOL_MIN_SECONDS = 1.0
@@ -416,7 +411,7 @@ def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], No
     shapers, treated = [], []
     with contextlib.ExitStack() as stack:
         if n_workers > 1:
-            pool = stack.enter_context(ProcessPoolExecutor(n_workers, mp_context=_POOL_CONTEXT))
+            pool = stack.enter_context(process_pool(n_workers))
             results = pool.map(_row_shaper, *zip(*args, strict=True))
         else:
             results = (_row_shaper(*a) for a in args)

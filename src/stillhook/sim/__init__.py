@@ -30,6 +30,7 @@ _EXPORTS = {
     "sim_csv": "stillhook.sim.recording",
     "sim_plot_png": "stillhook.sim.recording",
     "CSV_COLUMNS": "stillhook.sim.recording",
+    "sos_filter": "stillhook.sim.sos_filter",
 }
 
 __all__ = sorted(_EXPORTS)

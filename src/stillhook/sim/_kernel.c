@@ -78,3 +78,32 @@ void shk_sim_batch(int64_t n_runs, double cycle_s, int64_t sub, const double *pa
         }
     }
 }
+
+/* Cascade of biquads (second-order sections), direct form II transposed, zero initial state.
+ *
+ * Section s: sos[6s .. 6s+5] = b0, b1, b2, a0 (= 1), a1, a2; the input of section s is the output of
+ * section s - 1. Per sample k of one section, with x its input and y its output:
+ *     y[k]  = b0 x[k] + z0
+ *     z0    = (b1 x[k] - a1 y[k]) + z1
+ *     z1    = b2 x[k] - a2 y[k]
+ * the operations of scipy.signal.sosfilt in its order. The sections run one after the other over the
+ * whole signal (in place in y): the same numbers as sample by sample through all sections.
+ */
+void shk_sos_filter(int64_t n_sections, const double *sos, int64_t n, const double *x, double *y)
+{
+    for (int64_t k = 0; k < n; ++k) {
+        y[k] = x[k];
+    }
+    for (int64_t s = 0; s < n_sections; ++s) {
+        const double b0 = sos[6 * s], b1 = sos[6 * s + 1], b2 = sos[6 * s + 2];
+        const double a1 = sos[6 * s + 4], a2 = sos[6 * s + 5];
+        double z0 = 0.0, z1 = 0.0;
+        for (int64_t k = 0; k < n; ++k) {
+            const double xk = y[k];
+            const double yk = b0 * xk + z0;
+            z0 = b1 * xk - a1 * yk + z1;
+            z1 = b2 * xk - a2 * yk;
+            y[k] = yk;
+        }
+    }
+}
