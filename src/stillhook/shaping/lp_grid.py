@@ -6,15 +6,16 @@ shortest impulse sequence with A_i >= 0, sum A_i = 1 and V(w) <= Vtol for every 
 With the impulse times fixed on a grid tau_j = j h (j = 0..N), V(w) = |sum_j x_j e_j(w)| with
 e_j(w) = exp(-zeta w (tau_N - tau_j)) exp(j w_d tau_j), so "V <= s" is convex in the amplitudes x
 and equals the family of half-planes Re(exp(-j phi) sum_j x_j e_j(w)) <= s over all phases phi.
-A linear program (HiGHS dual simplex warm-started as cuts arrive, with a bounded effort and an interior-point retry:
-:class:`stillhook.shaping.lp_solve.CutLP`) minimizes s subject to a growing set
+A linear program (HiGHS dual simplex warm-started as cuts arrive and from grid to grid within one search stage,
+with a bounded effort and an interior-point retry: :class:`stillhook.shaping.lp_solve.CutLP`, :class:`_GridLP`)
+minimizes s subject to a growing set
 of such cuts (w, phi): after each solve V is evaluated on a dense frequency grid, its maxima are
 refined, and every maximum near or above Vtol adds the cut tangent at its own phase (Kelley's
 cutting-plane method). The LP's s is a lower bound on the true minimax, so "s > Vtol" proves the
 grid duration N h infeasible and "max V <= Vtol" proves it feasible. Bisection on N gives the
 shortest duration on the grid; the LP adds impulses wherever they are needed (a basic solution has
 as many non-zero impulses as active constraints call for). The grid is then refined (steps divided
-by 4 down to the drive cycle, or to T_min/4096 without one), keeping candidate times within one
+by 4 down to the drive cycle, or to T_min/4096 without one), keeping candidate times within half a
 coarse step of the current impulses. The shortest result is finally verified with
 :func:`stillhook.shaping.shaper.worst_vibration` (dense sampling plus a local search) per band.
 
