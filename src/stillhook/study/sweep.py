@@ -24,7 +24,6 @@ from __future__ import annotations
 import contextlib
 import dataclasses
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor
 
 import numpy as np
 
@@ -38,7 +37,7 @@ from stillhook.sim.profiles import project_move
 from stillhook.study.modal_sweep import AccelRuns, end_amplitudes, peak_after_end
 from stillhook.study.rig_samples import RigSamples, random_points, random_rigs
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
-from stillhook.workers import worker_count
+from stillhook.workers import process_pool, worker_count
 
 __all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "RigSamples", "SpotCheck", "SweepDesign", "SweepResult",
            "grid_points", "project_designs", "random_points", "random_rigs", "residuals", "spot_checks",
@@ -168,7 +167,7 @@ def residuals(rigs, designs, cycle_s: float, *, envelope=None, settle_s: float =
     out = np.empty((len(designs), R))
     with contextlib.ExitStack() as stack:
         if n_workers > 1:
-            pool = stack.enter_context(ProcessPoolExecutor(n_workers))
+            pool = stack.enter_context(process_pool(n_workers))
             parts = pool.map(_chunk_residuals, *zip(*args, strict=True))
         else:
             parts = (_chunk_residuals(*a) for a in args)
