@@ -32,10 +32,14 @@ from pathlib import Path
 
 import cffi
 
+from stillhook.errors import ConfigError
 from stillhook.sim.equations import c_functions
 
-__all__ = ["CDEF", "FLAGS", "cache_dir", "compiler_command", "kernel_source", "kernel_status", "load_kernel",
-           "reset_kernel"]
+__all__ = ["CDEF", "ENGINES", "FLAGS", "cache_dir", "compiler_command", "kernel_for", "kernel_source", "kernel_status",
+           "load_kernel", "reset_kernel"]
+
+#: Engines a caller may ask for: the compiled kernel where it builds, else numpy ("auto"), or one of them.
+ENGINES = ("auto", "compiled", "numpy")
 
 #: Declaration of the kernel's entry points (see ``_kernel.c``): the simulator and the biquad cascade.
 CDEF = """
@@ -122,6 +126,22 @@ def load_kernel():
             except (OSError, subprocess.SubprocessError) as exc:
                 kernel, status = None, f"kernel build or load failed ({type(exc).__name__}): numpy engine"
     _STATE["kernel"], _STATE["status"] = kernel, status
+    return kernel
+
+
+def kernel_for(engine: str):
+    """``(ffi, lib)`` of the compiled kernel for ``engine``, or None where the numpy engine is to run.
+
+    Raises
+    ------
+    ConfigError
+        ``engine`` is not one of :data:`ENGINES`, or it is "compiled" and the kernel is not available.
+    """
+    if engine not in ENGINES:
+        raise ConfigError(f"engine {engine!r} is not known; allowed: {', '.join(ENGINES)}")
+    kernel = None if engine == "numpy" else load_kernel()
+    if kernel is None and engine == "compiled":
+        raise ConfigError(f"the compiled simulator kernel is not available: {kernel_status()}")
     return kernel
 
 

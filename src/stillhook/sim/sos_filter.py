@@ -24,8 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 from stillhook.errors import ConfigError
-from stillhook.sim.kernel import kernel_status, load_kernel
-from stillhook.sim.stepping import ENGINES
+from stillhook.sim.kernel import kernel_for
 
 __all__ = ["sos_filter"]
 
@@ -76,11 +75,5 @@ def sos_filter(sos, x, engine: str = "auto") -> np.ndarray:
         raise ConfigError(f"sos has a0 = {sos[:, 3].tolist()}; allowed: a0 = 1 in every section")
     if x.ndim != 1:
         raise ConfigError(f"x has {x.ndim} dimensions; allowed: a 1-D signal")
-    if engine not in ENGINES:
-        raise ConfigError(f"engine {engine!r} is not known; allowed: {', '.join(ENGINES)}")
-    kernel = None if engine == "numpy" else load_kernel()
-    if kernel is None:
-        if engine == "compiled":
-            raise ConfigError(f"the compiled simulator kernel is not available: {kernel_status()}")
-        return _filter_python(sos, x)
-    return _filter_compiled(sos, x, kernel)
+    kernel = kernel_for(engine)
+    return _filter_python(sos, x) if kernel is None else _filter_compiled(sos, x, kernel)

@@ -24,14 +24,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from stillhook.errors import ConfigError
 from stillhook.sim.equations import numpy_rhs
-from stillhook.sim.kernel import kernel_status, load_kernel
+from stillhook.sim.kernel import kernel_for
 
-__all__ = ["ENGINES", "StepPlan", "run_steps"]
+__all__ = ["StepPlan", "run_steps"]
 
 #: Engine choices: the compiled kernel when it builds (else numpy), the compiled kernel only, numpy only.
-ENGINES = ("auto", "compiled", "numpy")
 
 
 @dataclass(frozen=True)
@@ -160,11 +158,5 @@ def run_steps(plan: StepPlan, engine: str = "auto") -> tuple[np.ndarray, str]:
     (Y, used) : ndarray of shape (sum(n_out), 4), str
         States at the output samples, run after run (rows ``plan.out_off[r]`` on); the engine used.
     """
-    if engine not in ENGINES:
-        raise ConfigError(f"engine {engine!r} is not known; allowed: {', '.join(ENGINES)}")
-    kernel = None if engine == "numpy" else load_kernel()
-    if kernel is None:
-        if engine == "compiled":
-            raise ConfigError(f"the compiled simulator kernel is not available: {kernel_status()}")
-        return _run_numpy(plan), "numpy"
-    return _run_compiled(plan, kernel), "compiled"
+    kernel = kernel_for(engine)
+    return (_run_numpy(plan), "numpy") if kernel is None else (_run_compiled(plan, kernel), "compiled")
