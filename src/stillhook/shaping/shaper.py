@@ -29,10 +29,10 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq, minimize_scalar
 
 from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import DesignError
+from stillhook.solvers import bounded_minimum, brent_root
 
 __all__ = [
     "Shaper", "TIME_MERGE_S", "check_cycle", "check_damping", "check_frequency",
@@ -330,7 +330,7 @@ def insensitive_band_hz(shaper: Shaper, design_freq_hz: float, tolerance: float,
             if out.size:
                 k = int(out[0])
                 a, b = (inside if k == 0 else float(span[k - 1])), float(span[k])
-                edge = float(brentq(excess, min(a, b), max(a, b), xtol=1e-12 * f0))
+                edge = brent_root(excess, min(a, b), max(a, b), xtol=1e-12 * f0)
             elif span.size < 2048:  # walked down to 0 Hz without leaving the tolerance
                 edge = 0.0
             elif span[-1] > _UNBOUNDED_RATIO * f0:  # heavy damping: V decays at high frequency
@@ -369,8 +369,7 @@ def worst_vibration(shaper: Shaper, f_lo_hz: float, f_hi_hz: float, damping_rati
     best_v, best_f = float(v[k]), float(f[k])
     if n > 1 and hi > lo:
         a, b = float(f[max(k - 1, 0)]), float(f[min(k + 1, n - 1)])
-        res = minimize_scalar(lambda x: -float(shaper.vibration_at_hz(x, zeta)), bounds=(a, b),
-                              method="bounded", options={"xatol": 1e-10 * hi})
-        if -res.fun > best_v:
-            best_v, best_f = float(-res.fun), float(res.x)
+        x, neg_v = bounded_minimum(lambda x: -float(shaper.vibration_at_hz(x, zeta)), a, b, xatol=1e-10 * hi)
+        if -neg_v > best_v:
+            best_v, best_f = -neg_v, x
     return best_v, best_f
