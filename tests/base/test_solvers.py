@@ -187,9 +187,9 @@ def _z(A, t, w, zeta):
     return np.exp(ph) @ A, (np.exp(ph) * (-zeta * (t[-1] - t) - 1j * wd * t)) @ A
 
 
-def _ei_reference(n_humps, tol, steps, step):
-    """{k: (t, A)} of the damped EI-family shaper at zeta = k step, k in ``steps``, by fsolve continuation in
-    zeta (steps ``step``) from the undamped shaper; w0 = 1 rad/s."""
+def _ei_reference(n_humps, tol, path):
+    """[(zeta, t, A)] of the damped EI-family shaper at each zeta of ``path`` (increasing), by fsolve
+    continuation along it from the undamped shaper; w0 = 1 rad/s."""
     A0 = undamped_hump_amplitudes(n_humps, tol)
     n = A0.size
     t0 = math.pi * np.arange(n)
@@ -217,23 +217,25 @@ def _ei_reference(n_humps, tol, steps, step):
         return np.concatenate([[A.sum() - 1.0], z0.real, z0.imag, np.abs(zh) - tol, (np.conj(zh) * dzh).real])
 
     x = np.concatenate([A0, t0[1:], wz, np.delete(wh, mid)] if odd else [A0, t0[1:], np.delete(wz, mid), wh])
-    out = {}
-    for k in range(1, max(steps) + 1):
-        x = fsolve(F, x, args=(k * step,), xtol=1e-13)
-        assert np.max(np.abs(F(x, k * step))) <= 1e-9
-        if k in steps:
-            A, t, _, _ = split(x)
-            out[k] = (t, A)
+    out = []
+    for zeta in path:
+        x = fsolve(F, x, args=(zeta,), xtol=1e-13)
+        assert np.max(np.abs(F(x, zeta))) <= 1e-9
+        A, t, _, _ = split(x)
+        out.append((zeta, t, A))
     return out
 
 
-@pytest.mark.parametrize("n_humps, steps, too_much", [(1, [25, 150, 300, 340], 0.7), (2, [50, 150, 200], 0.46),
-                                                      (3, [25, 100, 135], 0.29)])
-def test_damped_ei_family_agrees_with_fsolve(n_humps, steps, too_much):
-    """Up to about the heaviest damping each form reaches (EI 0.687, two-hump 0.443, three-hump 0.275)."""
-    step = 0.002  # the reference's continuation step: fsolve needs it this fine near the heaviest damping
-    for k, (t_ref, A_ref) in _ei_reference(n_humps, 0.05, steps, step).items():
-        t, A = damped_hump_shaper(n_humps, 1.0, k * step, 0.05)
+@pytest.mark.parametrize("n_humps, coarse, fine, too_much", [(1, 30, 40, 0.7), (2, 15, 50, 0.46), (3, 10, 35, 0.29)])
+def test_damped_ei_family_agrees_with_fsolve(n_humps, coarse, fine, too_much):
+    """Up to about the heaviest damping each form reaches (EI 0.687, two-hump 0.443, three-hump 0.275).
+
+    The reference continues in steps of 0.02 up to 0.02 ``coarse``, then 0.002 (fsolve loses the branch with
+    coarser steps near the heaviest damping); compared at three points: mid-coarse, end of coarse, last."""
+    path = [0.02 * k for k in range(1, coarse + 1)] + [0.02 * coarse + 0.002 * j for j in range(1, fine + 1)]
+    reference = _ei_reference(n_humps, 0.05, path)
+    for zeta, t_ref, A_ref in (reference[coarse // 2 - 1], reference[coarse - 1], reference[-1]):
+        t, A = damped_hump_shaper(n_humps, 1.0, zeta, 0.05)
         np.testing.assert_allclose(t, t_ref, atol=1e-9)
         np.testing.assert_allclose(A, A_ref, atol=1e-9)
     with pytest.raises(DesignError, match="solved up to"):
