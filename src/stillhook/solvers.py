@@ -43,6 +43,16 @@ _SQRT_EPS_FMIN = math.sqrt(2.2e-16)
 _GOLDEN = 0.5 * (3.0 - math.sqrt(5.0))
 
 
+def _check_settings(**settings) -> None:
+    """Tolerances positive and finite, iteration caps whole numbers >= 1 (one line naming the setting)."""
+    for name, value in settings.items():
+        whole = name == "max_iter"
+        if whole and (isinstance(value, bool) or not isinstance(value, int) or value < 1):
+            raise DesignError(f"{name} = {value!r} is out of range; allowed: a whole number >= 1")
+        if not whole and not (isinstance(value, (int, float)) and 0.0 < value < math.inf):
+            raise DesignError(f"{name} = {value!r} is out of range; allowed: a finite number > 0")
+
+
 def brent_root(f: Callable[[float], float], a: float, b: float, *, xtol: float, rtol: float = 4 * _EPS,
                max_iter: int = 100) -> float:
     """A root of ``f`` in [a, b] where f(a) and f(b) differ in sign, to within xtol + rtol |x|.
@@ -63,7 +73,7 @@ def brent_root(f: Callable[[float], float], a: float, b: float, *, xtol: float, 
     Raises
     ------
     DesignError
-        When f(a) and f(b) have the same sign (no bracket), or the cap is reached.
+        When f(a) and f(b) have the same sign (no bracket), the cap is reached, or a setting is out of range.
 
     Notes
     -----
@@ -74,6 +84,9 @@ def brent_root(f: Callable[[float], float], a: float, b: float, *, xtol: float, 
     within 2d; never slower than about the square of bisection's step count.
     Brent 1973, ch. 4; the formulation and stopping rule of ``scipy.optimize.brentq``.
     """
+    _check_settings(xtol=xtol, max_iter=max_iter)
+    if not rtol >= 4 * _EPS:
+        raise DesignError(f"rtol = {rtol!r} is out of range; allowed: rtol >= 4 eps = {4 * _EPS:.3g}")
     x_pre, x_cur = float(a), float(b)
     f_pre, f_cur = float(f(x_pre)), float(f(x_cur))
     if f_pre == 0.0:
@@ -133,7 +146,7 @@ def bounded_minimum(f: Callable[[float], float], a: float, b: float, *, xatol: f
     Raises
     ------
     DesignError
-        When a > b, an end is not finite, or f returns NaN.
+        When a > b, an end is not finite, f returns NaN, or a setting is out of range.
 
     Notes
     -----
@@ -144,6 +157,7 @@ def bounded_minimum(f: Callable[[float], float], a: float, b: float, *, xatol: f
     Brent 1973, ch. 5; Forsythe, Malcolm & Moler 1977, ``fmin``; the operations of
     ``scipy.optimize.minimize_scalar(method="bounded")``.
     """
+    _check_settings(xatol=xatol, max_iter=max_iter)
     a, b = float(a), float(b)
     if not (math.isfinite(a) and math.isfinite(b)) or a > b:
         raise DesignError(f"interval [{a:g}, {b:g}] is not a finite interval with lo <= hi; allowed: finite lo <= hi")
@@ -259,7 +273,7 @@ def solve_square_system(fun: Callable[[np.ndarray], np.ndarray], x0, *, xtol: fl
     Raises
     ------
     DesignError
-        When F(x0) does not have the shape of x0.
+        When F(x0) does not have the shape of x0, or a setting is out of range.
 
     Notes
     -----
@@ -267,6 +281,7 @@ def solve_square_system(fun: Callable[[np.ndarray], np.ndarray], x0, *, xtol: fl
     then backtracking x + lam s until |F|^2 decreases sufficiently (Armijo, alpha = 1e-4).
     Dennis & Schnabel 1983: alg. A5.6.3 (Jacobian), A6.3.1 (line search), ch. 6 (global convergence).
     """
+    _check_settings(xtol=xtol, max_iter=max_iter)
     x = np.array(x0, dtype=float).ravel()
     F = np.asarray(fun(x), dtype=float)
     if F.shape != x.shape:

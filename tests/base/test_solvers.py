@@ -8,6 +8,8 @@ damped-form systems are written here again from their defining conditions (indep
 """
 
 import math
+import subprocess
+import sys
 
 import numpy as np
 import pytest
@@ -265,3 +267,29 @@ def test_heaviest_damped_forms_are_valid_shapers(shaper, zeta):
     s = shaper(1.0, zeta, 0.05)
     lo, hi = insensitive_band_hz(s, 1.0, 0.05, zeta)
     assert np.all(s.amplitudes > 0.0) and lo < 0.5 and hi == math.inf
+
+
+def test_closed_form_shapers_load_no_scipy():
+    """The point of the module: designing ZV ... EI3, UM-ZV (damped too), their band edges and worst V imports no
+    scipy (``scipy.optimize`` alone took 0.3-0.6 s per process)."""
+    code = ("import sys\n"
+            "from stillhook.shaping.closed_forms import ei3, umzv\n"
+            "from stillhook.shaping.shaper import insensitivity_width, worst_vibration\n"
+            "s = ei3(0.3, 0.1)\n"
+            "print(insensitivity_width(s, 0.3, 0.05, 0.1), worst_vibration(umzv(0.3, 0.2), 0.2, 0.4, 0.2)[0])\n"
+            "print(sorted(m for m in sys.modules if m == 'scipy' or m.startswith('scipy.')))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip().splitlines()[-1] == "[]"
+
+
+@pytest.mark.parametrize("call, words", [
+    (lambda: brent_root(math.sin, 3.0, 3.5, xtol=0.0), "xtol = 0.0"),
+    (lambda: brent_root(math.sin, 3.0, 3.5, xtol=1e-9, rtol=1e-17), "rtol"),
+    (lambda: brent_root(math.sin, 3.0, 3.5, xtol=1e-9, max_iter=0), "max_iter = 0"),
+    (lambda: bounded_minimum(math.sin, 3.0, 5.0, xatol=math.nan), "xatol = nan"),
+    (lambda: bounded_minimum(math.sin, 3.0, 5.0, xatol=1e-6, max_iter=2.5), "max_iter = 2.5"),
+    (lambda: solve_square_system(lambda x: x, [1.0], xtol=-1.0), "xtol = -1.0"),
+])
+def test_settings_out_of_range(call, words):
+    with pytest.raises(DesignError, match=words):
+        call()
