@@ -96,20 +96,22 @@ def _continue(residual, x: np.ndarray, target: float, what: str) -> np.ndarray:
     """x with residual(x, target) = 0, by continuation in zeta from the solution ``x`` at zeta = 0.
 
     Steps of at most ``_MAX_ZETA_STEP``; each is solved by Newton (``solvers.solve_square_system``) from
-    the previous step's solution and accepted when max |residual| <= 1e-9. A step that fails is halved
+    the previous solution moved along the secant through the last two (x + (zeta - zeta_done) dx/dzeta)
+    and accepted when max |residual| <= 1e-9. A step that fails is halved
     (near the heaviest damping a form allows, its impulses move fast with zeta) down to
     ``_MIN_ZETA_STEP``, below which the branch is taken to end there. (Letting the step grow again
     after a success costs more than it saves: each failed step costs a full Newton run.)
     """
     done, step = 0.0, target / max(1, math.ceil(target / _MAX_ZETA_STEP))
+    slope = np.zeros_like(x)  # dx/dzeta from the last two solutions (secant predictor)
     while done < target:
         zeta = target if done + step > target * (1.0 - 1e-12) else done + step
         with np.errstate(all="ignore"):  # trial points far off may overflow; the residual decides
-            x_new = solve_square_system(lambda x, zeta=zeta: residual(x, zeta), x, xtol=1e-13,
-                                        max_iter=_MAX_NEWTON_STEPS)
+            x_new = solve_square_system(lambda x, zeta=zeta: residual(x, zeta), x + (zeta - done) * slope,
+                                        xtol=1e-13, max_iter=_MAX_NEWTON_STEPS)
             solved = bool(np.max(np.abs(residual(x_new, zeta))) <= 1e-9)
         if solved:
-            x, done = x_new, zeta
+            x, done, slope = x_new, zeta, (x_new - x) / (zeta - done)
         elif step / 2.0 >= _MIN_ZETA_STEP:
             step /= 2.0
         else:
