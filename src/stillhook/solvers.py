@@ -63,7 +63,7 @@ def brent_root(f: Callable[[float], float], a: float, b: float, *, xtol: float, 
         Continuous on [a, b].
     a, b : float
         The bracket (either order).
-    xtol : float >= 0
+    xtol : float > 0
         Absolute tolerance on the root (same unit as x).
     rtol : float >= 4 eps
         Relative tolerance on the root.
@@ -89,6 +89,9 @@ def brent_root(f: Callable[[float], float], a: float, b: float, *, xtol: float, 
         raise DesignError(f"rtol = {rtol!r} is out of range; allowed: rtol >= 4 eps = {4 * _EPS:.3g}")
     x_pre, x_cur = float(a), float(b)
     f_pre, f_cur = float(f(x_pre)), float(f(x_cur))
+    if not (math.isfinite(f_pre) and math.isfinite(f_cur)):
+        raise DesignError(f"f({x_pre:g}) = {f_pre:g}, f({x_cur:g}) = {f_cur:g}: not finite; allowed: a function "
+                          "finite on the bracket")
     if f_pre == 0.0:
         return x_pre
     if f_cur == 0.0:

@@ -69,6 +69,8 @@ def test_brent_root_exact_ends_and_bad_brackets():
     with pytest.raises(DesignError, match="bracket no root") as info:
         brent_root(lambda x: x * x + 1.0, -1.0, 2.0, xtol=1e-12)
     assert isinstance(info.value, ValueError)
+    with pytest.raises(DesignError, match="not finite"):
+        brent_root(lambda x: math.nan if x > 1.5 else -1.0, 1.0, 2.0, xtol=1e-12)
     with pytest.raises(DesignError, match="same sign"):
         brent_root(_vibration_excess(zv(0.3), 0.0, 0.05), 0.29, 0.31, xtol=1e-12)  # inside the band at both ends
 
