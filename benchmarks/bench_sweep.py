@@ -13,7 +13,13 @@ Prints, for 256 and 1,024 rigs of the demo envelope (16 x 16 and 32 x 32 grids):
 The notch is left out of the comparison: its command changes every cycle for its whole ring-out,
 which makes one solve_ivp run take tens of seconds (the sweep handles it in the same time).
 
-Run: ``python benchmarks/bench_sweep.py`` (about 5-10 minutes on 2 cores; ``--sizes 256`` for less).
+With ``--uncertain N [N ...]`` it also prints, for N random rigs of the demo project with an
+``[uncertainty]`` table (hook mass, rigging length, damping ratio drawn with rope length and payload mass),
+the wall time and peak memory (main process and largest worker) of ``sweep_project`` in a fresh process,
+beside the same sweep with the rig held nominal (``vary_rig=False``).
+
+Run: ``python benchmarks/bench_sweep.py`` (about 5-10 minutes on 2 cores; ``--sizes 256`` for less);
+``python benchmarks/bench_sweep.py --sizes --no-demo --uncertain 100000 1000000`` for the uncertain sweep only.
 """
 
 from __future__ import annotations
@@ -120,6 +126,52 @@ def disagreement(sweep_json: dict, loop: dict) -> dict:
             "max_abs_m": abs_m, "where": where}
 
 
+#: The uncertainty the benchmark adds to the demo project (an invented scenario: hook block weighed to +-10 %,
+#: lifting beam and slings 2.8-3.4 m, damping 0-1 %).
+UNCERTAINTY_TOML = """
+[uncertainty]
+hook_mass_kg = [306.0, 374.0]
+rigging_length_m = [2.8, 3.4]
+damping_ratio = [0.0, 0.01]
+"""
+
+
+def uncertain_sweep(n: int, vary_rig: bool) -> dict:
+    """Wall time and peak memory (MB) of sweep_project over n random rigs in a fresh process (design included)."""
+    code = ("import json, resource, sys, time; from stillhook.project import demo_project_text, project_from_bytes; "
+            "from stillhook.study.sweep import sweep_project; "
+            "p = project_from_bytes((demo_project_text() + sys.argv[1]).encode(), 'demo_uncertain.toml'); "
+            "t = time.perf_counter(); "
+            f"r = sweep_project(p, samples={n}, seed=1, keys=('unshaped', 'shaper', 'schedule'), vary_rig={vary_rig}); "
+            "t = time.perf_counter() - t; s = r.summary(); "
+            "print(json.dumps({'s': t, 'rss_mb': resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024, "
+            "'worker_rss_mb': resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024, "
+            "'within': {k: v['share_within_tolerance'] for k, v in s.items()}, "
+            "'worst': {k: [v['worst_ratio'], v['worst_ratio_at']] for k, v in s.items()}, "
+            "'disagreement': r.max_disagreement()}))")
+    env = dict(os.environ, STILLHOOK_DESIGN_CACHE="off")
+    out = subprocess.run([sys.executable, "-c", code, UNCERTAINTY_TOML], check=True, capture_output=True, text=True,
+                         env=env)
+    return json.loads(out.stdout)
+
+
+def uncertain_figures(sizes) -> None:
+    print("\nuncertain sweep (demo + [uncertainty]; unshaped, shaper, schedule; spot checks included; design "
+          "included; fresh process each)")
+    for n in sizes:
+        for vary in (False, True):
+            r = uncertain_sweep(n, vary)
+            what = "hook, rigging, damping sampled" if vary else "rig held nominal"
+            print(f"  {n:>8} rigs, {what:<31}: {r['s']:7.2f} s, peak memory main {r['rss_mb']:6.0f} MB, largest worker "
+                  f"{r['worker_rss_mb']:5.0f} MB; within tolerance: shaper {100 * r['within']['shaper']:.2f} %, "
+                  f"schedule {100 * r['within']['schedule']:.2f} %; spot-check disagreement "
+                  f"{100 * r['disagreement']:.2g} %")
+            if vary:
+                k, (q, at) = "schedule", r["worst"]["schedule"]
+                print(f"           worst {k}: {100 * q:.2f} % of unshaped at " + ", ".join(
+                    f"{name} {value:.4g}" for name, value in at.items()))
+
+
 def timed(fn) -> float:
     t0 = time.perf_counter()
     fn()
@@ -128,7 +180,9 @@ def timed(fn) -> float:
 
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[256, 1024], help="numbers of rigs (perfect squares)")
+    ap.add_argument("--sizes", type=int, nargs="*", default=[256, 1024], help="numbers of rigs (perfect squares)")
+    ap.add_argument("--uncertain", type=int, nargs="*", default=[], metavar="N",
+                    help="also time uncertain random sweeps of N rigs (e.g. 100000 1000000)")
     ap.add_argument("--no-demo", action="store_true", help="skip timing the demo")
     args = ap.parse_args()
 
@@ -166,6 +220,10 @@ def main() -> int:
               f"{100 * d['median_rel']:.3f} %, {100 * d['share_within_1pct']:.1f} % of runs within 1 %; max "
               f"{100 * d['max_rel_peak']:.3f} % of the peak sway during the move; max {1000 * d['max_abs_m']:.2f} mm")
 
+    if args.uncertain:
+        uncertain_figures(args.uncertain)
+    if not args.sizes:
+        return 0
     from stillhook.firmware.plan import plan_for_project, render_files
     from stillhook.shaping.envelope_design import design_for_project
 

@@ -166,6 +166,9 @@ LIMITS.update({
     "target_damping_ratio": Limit("", 0.0, 0.7, lo_ok=False, reason="closed-loop damping of every pole pair"),
     "min_damping_ratio": Limit("", 0.0, 0.7, reason="least closed-loop damping accepted on the envelope"),
     "rows": Limit("rows", 1, 64, integer=True, reason="rope-length rows of the gain schedule"),
+    # uncertainty study: ranges of +- k standard deviations of the calibration
+    "calibration_sd": Limit("standard deviations", 0.0, 10.0, lo_ok=False, reason="ranges of +- k standard "
+                            "deviations of the calibration's fit (k = 3 covers 99.7 % of a normal estimate)"),
 })
 for _alias, _quantity in (("nominal_rope_length_m", "rope_length_m"), ("nominal_payload_mass_kg", "payload_mass_kg"),
                           ("hoist_to_m", "rope_length_m"), ("nominal_hook_mass_kg", "hook_mass_kg"),

@@ -24,7 +24,7 @@ from pathlib import Path
 
 from stillhook.errors import InputFileError
 
-__all__ = ["MARKER", "check_out_dir", "check_out_file", "to_json", "write_file", "write_files"]
+__all__ = ["MARKER", "check_out_dir", "check_out_file", "to_json", "write_file", "write_files", "write_json"]
 
 #: Marker file stillhook puts in every folder it writes: the list of files it wrote there.
 MARKER = ".stillhook-output.json"
@@ -36,6 +36,38 @@ def to_json(obj) -> str:
         return json.dumps(obj, indent=2, allow_nan=False) + "\n"
     except ValueError as exc:  # NaN or inf in results is a bug upstream, say so plainly
         raise ValueError(f"result is not finite and cannot be written as JSON: {exc}") from None
+
+
+def _nested(value, prefix: str) -> str:
+    """to_json's text of ``value`` as it appears nested ``prefix`` deep (every line after the first indented)."""
+    try:
+        return json.dumps(value, indent=2, allow_nan=False).replace("\n", "\n" + prefix)
+    except ValueError as exc:
+        raise ValueError(f"result is not finite and cannot be written as JSON: {exc}") from None
+
+
+def write_json(obj: dict, stream, *, streamed: dict | None = None) -> None:
+    """Write ``to_json(obj)`` to ``stream`` with the values of ``streamed`` keys taken item by item.
+
+    ``streamed`` maps keys of ``obj`` to iterables (e.g. generators over a million sweep rigs); each such key's
+    value is written as the list of the iterable's items without the list ever being held, so the memory stays
+    bounded. The text is byte for byte ``to_json({**obj, key: list(items)})``.
+    """
+    streamed = streamed or {}
+    if not obj:
+        stream.write("{}\n")
+        return
+    for n, (key, value) in enumerate(obj.items()):
+        stream.write(("{\n" if n == 0 else ",\n") + "  " + json.dumps(key) + ": ")
+        if key not in streamed:
+            stream.write(_nested(value, "  "))
+            continue
+        empty = True
+        for item in streamed[key]:
+            stream.write(("[\n" if empty else ",\n") + "    " + _nested(item, "    "))
+            empty = False
+        stream.write("[]" if empty else "\n  ]")
+    stream.write("\n}\n")
 
 
 def _reason(exc: OSError) -> str:

@@ -31,6 +31,7 @@ from stillhook.checks import LIMITS, check_identifier, check_quantity
 from stillhook.errors import ConfigError, InputFileError, StillhookError
 from stillhook.model.envelope import Envelope
 from stillhook.model.sensors import SENSOR_KINDS
+from stillhook.model.uncertainty import UNCERTAIN_PARAMETERS, RigUncertainty
 
 DEMO_PROJECT_NAME = "demo_project.toml"
 
@@ -39,9 +40,9 @@ DEMO_PROJECT_NAME = "demo_project.toml"
 class Key:
     """One key of the schema.
 
-    kind: "number", "range" (number or [min, max]), "numbers" (a list of numbers), "int", "bool", "choice",
-    "identifier". Numbers take their allowed range from :data:`stillhook.checks.LIMITS` under the key's name
-    (the same range as the CLI option).
+    kind: "number", "range" (number or [min, max]), "interval" ([min, max] only), "numbers" (a list of numbers),
+    "int", "bool", "choice", "identifier". Numbers take their allowed range from :data:`stillhook.checks.LIMITS`
+    under the key's name (the same range as the CLI option).
     """
 
     kind: str
@@ -59,6 +60,8 @@ class Key:
         text = LIMITS[key].allowed()
         if self.kind == "range":
             return "a number or [min, max] with min <= max, each " + text
+        if self.kind == "interval":
+            return "[min, max] with min <= max, each " + text
         if self.kind == "numbers":
             return f"a list of at most {MAX_LIST} numbers, each " + text
         return text
@@ -165,6 +168,15 @@ SCHEMA["feedback"] = {
     # payload mass each row is designed at; unset: [rig] nominal_payload_mass_kg
     "design_payload_mass_kg": Key("number", default=None),
 }
+# what the rig's values may really be: the design stays made for [rig]; the sweep's random samples draw
+# these too (each [min, max] around the [rig] value). calibration_sd: parameters without a range here get the
+# [rig] value +- that many [calibration] standard deviations (bounded by the parameter's limits)
+SCHEMA["uncertainty"] = {
+    "hook_mass_kg": Key("interval", default=None),
+    "rigging_length_m": Key("interval", default=None),
+    "damping_ratio": Key("interval", default=None),
+    "calibration_sd": Key("number", default=None),
+}
 REQUIRED_SECTIONS = ("rig", "drive")
 #: Longest list a "numbers" key accepts.
 MAX_LIST = 4096
@@ -191,6 +203,9 @@ class Project:
         used when ``"feedback" in given_sections``).
     calibration : dict
         ``[calibration]`` with defaults filled in (written by ``stillhook calibrate``; empty lists when absent).
+    uncertainty : RigUncertainty or None
+        Ranges of hook mass, rigging length and damping ratio from ``[uncertainty]`` (None without that
+        section); the sweep's random samples draw them.
     """
 
     envelope: Envelope
@@ -205,6 +220,7 @@ class Project:
     sensor: dict = field(default_factory=dict)
     feedback: dict = field(default_factory=dict)
     calibration: dict = field(default_factory=dict)
+    uncertainty: RigUncertainty | None = None
 
 
 def _where(section: str, key: str) -> str:
@@ -223,7 +239,9 @@ def _value(section: str, key: str, spec: Key, value: Any) -> Any:
         return _number(section, key, value)
     if spec.kind == "int":
         return check_quantity(key, value, name=where)
-    if spec.kind == "range":
+    if spec.kind == "interval" and not isinstance(value, list):
+        raise ConfigError(f"{where} = {value!r} is not a list [min, max]; allowed: {spec.allowed(key)}")
+    if spec.kind in ("range", "interval"):
         if isinstance(value, list):
             if len(value) != 2:
                 raise ConfigError(f"{where} = {value!r} has {len(value)} items; allowed: {spec.allowed(key)}")
@@ -312,7 +330,40 @@ def project_from_dict(data: dict, *, digest: str = "", name: str = "project") ->
                           + " have different lengths; allowed: one entry each per identified mode")
     return Project(env, s["drive"], s["move"], s["design"], s["notch"], s["firmware"], digest, name,
                    given_sections=tuple(section for section in SCHEMA if section in data), calibration=cal,
-                   sensor=s["sensor"], feedback=s["feedback"])
+                   sensor=s["sensor"], feedback=s["feedback"],
+                   uncertainty=rig_uncertainty(s["uncertainty"], env, cal) if "uncertainty" in data else None)
+
+
+#: [calibration] standard-deviation key of each uncertain parameter.
+CALIBRATION_SD_KEYS = {"hook_mass_kg": "hook_mass_sd_kg", "rigging_length_m": "rigging_length_sd_m",
+                       "damping_ratio": "damping_ratio_sd"}
+
+
+def rig_uncertainty(section: dict, envelope: Envelope, calibration: dict) -> RigUncertainty:
+    """The ``[uncertainty]`` section (validated, defaults filled in) as a :class:`RigUncertainty`.
+
+    A parameter with its own [min, max] takes it; otherwise, with ``calibration_sd = k``, it takes
+    v +- k sd (v the ``[rig]`` value, sd the ``[calibration]`` standard deviation; bounded by the parameter's
+    limits in ``checks.LIMITS``); otherwise it is known exactly.
+    """
+    nominal = {k: getattr(envelope, k) for k in UNCERTAIN_PARAMETERS}
+    ranges, sources = {}, {}
+    k_sd = section["calibration_sd"]
+    if k_sd is not None and not any(calibration.get(CALIBRATION_SD_KEYS[k]) for k in UNCERTAIN_PARAMETERS):
+        raise ConfigError(f"[uncertainty] calibration_sd = {k_sd:g} needs standard deviations in [calibration] "
+                          f"({', '.join(CALIBRATION_SD_KEYS.values())}, written by stillhook calibrate); allowed: "
+                          "a calibrated project, or [min, max] ranges in [uncertainty]")
+    for key in UNCERTAIN_PARAMETERS:
+        sd = calibration.get(CALIBRATION_SD_KEYS[key])
+        if section[key] is not None:
+            ranges[key], sources[key] = section[key], f"[uncertainty] {key}"
+        elif k_sd is not None and sd:
+            limit = LIMITS[key]
+            lo, hi = nominal[key] - k_sd * sd, nominal[key] + k_sd * sd
+            ranges[key] = (max(lo, limit.lo) if limit.lo is not None else lo,
+                           min(hi, limit.hi) if limit.hi is not None else hi)
+            sources[key] = f"[rig] {key} +- {k_sd:g} x [calibration] {CALIBRATION_SD_KEYS[key]} ({sd:.3g})"
+    return RigUncertainty(nominal, ranges, sources)
 
 
 def load_project(path: str | Path) -> Project:

@@ -8,7 +8,7 @@ from concurrent.futures import ProcessPoolExecutor
 
 from stillhook.errors import ConfigError
 
-__all__ = ["POOL_CONTEXT", "WORKERS_VARIABLE", "process_pool", "worker_count"]
+__all__ = ["POOL_CONTEXT", "WORKERS_VARIABLE", "process_pool", "start_in_background", "worker_count"]
 
 #: Environment variable that caps the worker processes of every parallel step.
 WORKERS_VARIABLE = "STILLHOOK_WORKERS"
@@ -57,3 +57,43 @@ def _workers_from_environment() -> int | None:
 def process_pool(n_workers: int) -> ProcessPoolExecutor:
     """A pool of ``n_workers`` processes started the one way every parallel step starts them (:data:`POOL_CONTEXT`)."""
     return ProcessPoolExecutor(n_workers, mp_context=POOL_CONTEXT)
+
+
+def start_in_background(fn, *args, **kwargs):
+    """Run ``fn(*args, **kwargs)`` in one new process (:data:`POOL_CONTEXT`) while this one goes on.
+
+    Unlike a pool, this leaves no thread behind in this process, so pools started later here still fork a
+    single-threaded process. ``fn`` must be a module-level function (picklable where processes are spawned).
+
+    Returns
+    -------
+    callable () -> object
+        Waits for the process and returns ``fn``'s result, or raises the exception ``fn`` raised.
+    """
+    receive, send = POOL_CONTEXT.Pipe(duplex=False)
+    process = POOL_CONTEXT.Process(target=_run_and_send, args=(send, fn, args, kwargs), daemon=True)
+    process.start()
+    send.close()
+
+    def result():
+        try:
+            ok, value = receive.recv()
+        except EOFError:
+            process.join()
+            raise RuntimeError(f"background process for {fn.__name__} ended with exit code {process.exitcode} "
+                               "before it sent a result") from None
+        process.join()
+        if not ok:
+            raise value
+        return value
+
+    return result
+
+
+def _run_and_send(send, fn, args, kwargs) -> None:
+    try:
+        outcome = (True, fn(*args, **kwargs))
+    except BaseException as exc:  # the parent re-raises it
+        outcome = (False, exc)
+    send.send(outcome)
+    send.close()

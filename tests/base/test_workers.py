@@ -7,7 +7,7 @@ import os
 import pytest
 
 from stillhook.errors import ConfigError
-from stillhook.workers import WORKERS_VARIABLE, process_pool, worker_count
+from stillhook.workers import WORKERS_VARIABLE, process_pool, start_in_background, worker_count
 
 
 def test_the_callers_choice_wins_and_never_exceeds_the_tasks(monkeypatch):
@@ -39,3 +39,15 @@ def test_the_pool_runs_tasks_in_worker_processes():
 
 def worker_pid(_):
     return os.getpid()
+
+
+def divide(a, b):
+    return a / b
+
+
+def test_a_background_process_returns_the_result_or_raises_its_exception():
+    one = start_in_background(divide, 6.0, 3.0)
+    two = start_in_background(divide, 1.0, 0.0)
+    assert one() == 2.0
+    with pytest.raises(ZeroDivisionError):
+        two()

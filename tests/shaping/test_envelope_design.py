@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import math
 
 import numpy as np
 import pytest
@@ -11,12 +12,16 @@ from stillhook.model.lookup import schedule_rows
 from stillhook.project import load_project, project_from_dict
 from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.envelope_design import (
+    POOL_MIN_SECONDS,
+    ROW_SECONDS_PER_IMPULSE,
     design_for_project,
     design_schedule,
     schedule_for_project,
     schedule_ratio,
+    schedule_workers,
 )
 from stillhook.shaping.residual_map import mode_shares, payload_participations, residual_ratio
+from stillhook.shaping.shaper import Shaper
 from stillhook.workers import worker_count
 
 
@@ -194,3 +199,16 @@ def test_schedule_rows_are_independent_so_any_worker_count_gives_the_same_schedu
     two = design_schedule(p, d.shaper, workers=2)
     assert json.dumps(one.as_dict()) == json.dumps(two.as_dict()) == json.dumps(d.schedule.as_dict())
     assert worker_count(1) == 1 and worker_count(100) >= 1 and worker_count(5, 2) == 2 and worker_count(1, 8) == 1
+
+
+def test_small_schedules_stay_in_this_process_and_large_ones_go_to_the_pool():
+    # the pool costs ~0.1 s of CPU to start: rows estimated below POOL_MIN_SECONDS in total run here
+    def shaper_of(n):
+        return Shaper.from_impulses(np.arange(n) * 0.01, np.full(n, 1.0 / n), "test")
+
+    few = math.floor(POOL_MIN_SECONDS / ROW_SECONDS_PER_IMPULSE / 10) - 1  # impulses: 10 rows stay below the bound
+    many = math.ceil(POOL_MIN_SECONDS / ROW_SECONDS_PER_IMPULSE / 10) + 1
+    assert schedule_workers(10, shaper_of(few)) == 1
+    assert schedule_workers(10, shaper_of(many)) == worker_count(10)
+    assert schedule_workers(10, shaper_of(few), workers=2) == 2  # an explicit count wins
+    assert schedule_workers(1, shaper_of(many), workers=4) == 1

@@ -30,7 +30,7 @@ def add_quantity_option(parser: argparse.ArgumentParser, flag: str, quantity: st
     limit = LIMITS[quantity]
     kwargs.setdefault("type", int if limit.integer else float)
     if "metavar" not in kwargs:
-        mv = METAVARS[limit.unit]
+        mv = "INT" if limit.integer and not limit.unit else METAVARS[limit.unit]  # a whole number is no RATIO
         kwargs["metavar"] = mv if kwargs.get("nargs") not in (2,) else (f"{mv}_LO", f"{mv}_HI")
     action = parser.add_argument(flag, help=help, **kwargs)
     known = parser.get_default("_quantities") or ()

@@ -22,6 +22,8 @@ _EXPORTS = {
     "row_edges_m": "stillhook.model.lookup",
     "rows_for_counts": "stillhook.model.lookup",
     "schedule_rows": "stillhook.model.lookup",
+    "RigUncertainty": "stillhook.model.uncertainty",
+    "UNCERTAIN_PARAMETERS": "stillhook.model.uncertainty",
     "SENSOR_KINDS": "stillhook.model.sensors",
     "SENSOR_ROWS": "stillhook.model.sensors",
     "OUTPUT_NAMES": "stillhook.model.statespace",

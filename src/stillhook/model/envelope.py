@@ -91,10 +91,17 @@ class Envelope:
         """
         return rope_length_m + self.rope_offset_m
 
-    def rig(self, rope_length_m: float, payload_mass_kg: float) -> Rig:
-        """The rig at one point of the envelope (``rope_length_m`` as the encoder reads it)."""
-        return Rig(self.hook_mass_kg, payload_mass_kg, self.pendulum_length_m(rope_length_m), self.rigging_length_m,
-                   self.gravity_m_s2, self.damping_ratio)
+    def rig(self, rope_length_m: float, payload_mass_kg: float, *, hook_mass_kg: float | None = None,
+            rigging_length_m: float | None = None, damping_ratio: float | None = None) -> Rig:
+        """The rig at one point of the envelope (``rope_length_m`` as the encoder reads it).
+
+        ``hook_mass_kg``, ``rigging_length_m`` and ``damping_ratio`` replace the envelope's values for this rig
+        (one sample of an uncertainty study); None keeps the envelope's.
+        """
+        return Rig(self.hook_mass_kg if hook_mass_kg is None else hook_mass_kg, payload_mass_kg,
+                   self.pendulum_length_m(rope_length_m),
+                   self.rigging_length_m if rigging_length_m is None else rigging_length_m,
+                   self.gravity_m_s2, self.damping_ratio if damping_ratio is None else damping_ratio)
 
     @property
     def nominal_rig(self) -> Rig:

@@ -70,26 +70,27 @@ class BatchModes:
         return self.omega_rad_s / (2 * np.pi)
 
 
-def batch_modes(hook_mass_kg, payload_mass_kg, rope_length_m, rigging_length_m: float,
+def batch_modes(hook_mass_kg, payload_mass_kg, rope_length_m, rigging_length_m,
                 gravity_m_s2: float = STANDARD_GRAVITY_M_S2) -> BatchModes:
     """Modes of every rig of a batch (module docstring), vectorized.
 
     Parameters
     ----------
-    hook_mass_kg : float > 0
+    hook_mass_kg : float > 0 or array_like
     payload_mass_kg : array_like, >= 0
     rope_length_m : array_like, > 0
-        Broadcast with ``payload_mass_kg`` to the batch shape (e.g. ``L[:, None]`` and
-        ``m[None, :]`` for a grid, or paired 1-D arrays).
-    rigging_length_m : float >= 0
+    rigging_length_m : float >= 0 or array_like
+        All four broadcast together to the batch shape (e.g. ``L[:, None]`` and ``m[None, :]`` for a
+        grid, or paired 1-D arrays; hook mass and rigging length per rig for uncertainty studies).
     gravity_m_s2 : float > 0
 
     Returns
     -------
     BatchModes
     """
-    g, L2, m1 = float(gravity_m_s2), float(rigging_length_m), float(hook_mass_kg)
-    m2, L1 = np.broadcast_arrays(np.asarray(payload_mass_kg, dtype=float), np.asarray(rope_length_m, dtype=float))
+    g = float(gravity_m_s2)
+    m1, m2, L1, L2 = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in
+                                           (hook_mass_kg, payload_mass_kg, rope_length_m, rigging_length_m)))
     two = (m2 > 0.0) & (L2 > 0.0)
     # single pendulum: w^2 = g / L1; a massless payload hangs in line with the rope
     w_single = np.sqrt(g / L1)
@@ -99,19 +100,19 @@ def batch_modes(hook_mass_kg, payload_mass_kg, rope_length_m, rigging_length_m: 
     P[..., 0] = -(L1 + np.where(m2 == 0.0, L2, 0.0)) / g
     H[..., 0] = -L1 / g
     if np.any(two):
-        w2m, Pm, Hm = _double_pendulum(m1, m2[two], L1[two], L2, g)
+        w2m, Pm, Hm = _double_pendulum(m1[two], m2[two], L1[two], L2[two], g)
         w[two], P[two], H[two] = w2m, Pm, Hm
     return BatchModes(w, P, H, two)
 
 
-def _double_pendulum(m1: float, m2: np.ndarray, L1: np.ndarray, L2: float, g: float):
-    """(w, P, H), each (n, 2), for 1-D arrays of double-pendulum rigs (module docstring)."""
+def _double_pendulum(m1: np.ndarray, m2: np.ndarray, L1: np.ndarray, L2: np.ndarray, g: float):
+    """(w, P, H), each (n, 2), for paired 1-D arrays of double-pendulum rigs (module docstring)."""
     w = mode_frequencies_rad_s(m1, m2, L1, L2, g)  # (n, 2)
     w2 = w * w
-    L1b, m2b = L1[..., None], m2[..., None]
-    phi1, phi2 = g - w2 * L2, w2 * L1b
+    m1b, m2b, L1b, L2b = m1[..., None], m2[..., None], L1[..., None], L2[..., None]
+    phi1, phi2 = g - w2 * L2b, w2 * L1b
     # mu = phi^T M phi with M = [[(m1 + m2) L1^2, m2 L1 L2], [m2 L1 L2, m2 L2^2]]; phi^T b, b = [(m1 + m2) L1, m2 L2]
-    mu = (m1 + m2b) * L1b**2 * phi1**2 + 2 * m2b * L1b * L2 * phi1 * phi2 + m2b * L2**2 * phi2**2
-    phib = (m1 + m2b) * L1b * phi1 + m2b * L2 * phi2
+    mu = (m1b + m2b) * L1b**2 * phi1**2 + 2 * m2b * L1b * L2b * phi1 * phi2 + m2b * L2b**2 * phi2**2
+    phib = (m1b + m2b) * L1b * phi1 + m2b * L2b * phi2
     gamma = -phib / (mu * w2)
-    return w, (L1b * phi1 + L2 * phi2) * gamma, L1b * phi1 * gamma
+    return w, (L1b * phi1 + L2b * phi2) * gamma, L1b * phi1 * gamma

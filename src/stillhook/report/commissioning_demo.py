@@ -16,7 +16,8 @@ from stillhook.outputs import to_json
 from stillhook.project import demo_project_text, load_demo_project, project_from_bytes
 from stillhook.report.commissioning_section import commissioning_data
 
-__all__ = ["CALIBRATED_NAME", "DemoCommissioning", "commission_demo", "commissioning_files", "finish_study"]
+__all__ = ["CALIBRATED_NAME", "DemoCommissioning", "commission_demo", "commissioning_files", "finish_study",
+           "segment_figures"]
 
 #: File name of the calibrated demo project (also the project's name in the report).
 CALIBRATED_NAME = "demo_project_calibrated.toml"
@@ -48,10 +49,17 @@ def finish_study(study, demo: DemoCommissioning) -> None:
     """Add the commissioning numbers on the true crane and the segment figures to the calibrated project's study."""
     study.commissioning = commissioning_data(demo.project, study.design,
                                              true_envelope=true_envelope(demo.nominal.envelope))
+    study.figures.update(segment_figures(demo))
+
+
+def segment_figures(demo: DemoCommissioning) -> dict:
+    """``{name: figure data}``: measured against fitted sway of every identified segment of every log."""
+    figures = {}
     for r in demo.results:
         for i, seg in enumerate(r.segments):
             stem = r.log.name.removesuffix(".csv")
-            study.figures[f"sway_fit_{stem}_{i + 1}"] = segment_figure_data(r.log.name, i, seg)
+            figures[f"sway_fit_{stem}_{i + 1}"] = segment_figure_data(r.log.name, i, seg)
+    return figures
 
 
 def commissioning_files(demo: DemoCommissioning) -> dict[str, str | bytes]:

@@ -21,11 +21,12 @@ from pathlib import Path
 
 from stillhook.errors import EmitError
 from stillhook.outputs import check_out_dir, write_files
-from stillhook.report.commissioning_demo import commission_demo, commissioning_files, finish_study
-from stillhook.report.figures import submit_figures
+from stillhook.report.commissioning_demo import commission_demo, commissioning_files, finish_study, segment_figures
+from stillhook.report.figure_data import frequency_map_data
+from stillhook.report.figures import figure_files, submit_figures
 from stillhook.report.folder import report_files
 from stillhook.report.study import REPORT_GRID, build_study
-from stillhook.workers import process_pool, worker_count
+from stillhook.workers import process_pool, start_in_background, worker_count
 
 __all__ = ["COMPILERS", "DemoResult", "SELFTEST_SKIPPED", "SELFTEST_TIMEOUT_S", "find_compiler", "run_demo",
            "run_selftest"]
@@ -119,6 +120,22 @@ class DemoResult:
     commissioning: object = None
 
 
+def _draw_early_figures(demo) -> dict:
+    """Start drawing the figures known right after commissioning (segment fits, frequency maps).
+
+    They are drawn in one background process while the study runs here (:func:`run_demo`); with one worker
+    (``$STILLHOOK_WORKERS=1``) they are drawn here when asked for. Returns ``{"data": {name: figure data},
+    "files": callable giving {"<name>.<fmt>": bytes}}``.
+    """
+    data = {**segment_figures(demo), "frequency_maps": frequency_map_data(demo.project)}
+    if worker_count(2) > 1:
+        files = start_in_background(figure_files, data, n_workers=1)
+    else:
+        def files():
+            return figure_files(data, n_workers=1)
+    return {"data": data, "files": files}
+
+
 def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = True, progress=None,
              force: bool = False) -> DemoResult:
     """Run the whole job on the demo project and write ``out_dir`` (all files at once).
@@ -151,6 +168,7 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     t0 = time.perf_counter()
     demo = commission_demo()
     t_commission = time.perf_counter() - t0
+    early = _draw_early_figures(demo)
     study = build_study(demo.project, grid=grid or REPORT_GRID, progress=progress)
     finish_study(study, demo)
     study.timings_s["commissioning"] = t_commission
@@ -159,11 +177,12 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     if progress is not None:
         progress("self-test and figures")
     t0 = time.perf_counter()
-    with process_pool(worker_count(len(study.figures))) as pool:
-        drawn = submit_figures(pool, study.figures)  # the workers draw while this process builds the self-test
+    late = {name: data for name, data in study.figures.items() if early["data"].get(name) != data}
+    with process_pool(worker_count(len(late))) as pool:
+        drawn = submit_figures(pool, late)  # the workers draw while this process builds the self-test
         study.selftest = run_selftest(study.firmware_files, study.emit_plan.prefix) if selftest else SELFTEST_SKIPPED
         study.timings_s["self-test"] = time.perf_counter() - t0
-        figures = drawn()
+        figures = dict(sorted({**early["files"](), **drawn()}.items()))
     if progress is not None:
         progress("report")
     t0 = time.perf_counter()

@@ -70,8 +70,13 @@ def _check_cycle(cycle_s, bands) -> float | None:
 
 
 def worst_over_bands(shaper: Shaper, bands_hz, damping_ratio: float = 0.0) -> float:
-    """Largest V of ``shaper`` over all the bands (Hz)."""
-    return max(worst_vibration(shaper, lo, hi, damping_ratio)[0] for lo, hi in bands_hz)
+    """Largest V of ``shaper`` over all the bands (Hz); 0 for no band."""
+    return max((worst_vibration(shaper, lo, hi, damping_ratio)[0] for lo, hi in bands_hz), default=0.0)
+
+
+def _outside(bands, covers) -> list[tuple[float, float]]:
+    """The bands not inside any of ``covers`` (each (lo, hi) in Hz)."""
+    return [(lo, hi) for lo, hi in bands if not any(c_lo <= lo and hi <= c_hi for c_lo, c_hi in covers)]
 
 
 # -- closed-form covers -----------------------------------------------------------------------
@@ -152,7 +157,7 @@ def closed_form_cover(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
 # -- public API --------------------------------------------------------------------------------
 def multi_band_shaper(bands_hz, tolerance: float = 0.05, damping_ratio: float = 0.0, *,
                       cycle_s: float | None = None, start: Shaper | None = None, name: str = "band",
-                      hint_s: float | None = None) -> Shaper:
+                      hint_s: float | None = None, start_covers_hz=()) -> Shaper:
     """Shortest positive shaper with V <= tolerance over every band at once (direct design).
 
     Parameters
@@ -170,6 +175,10 @@ def multi_band_shaper(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
     hint_s : float or None
         A guessed duration (s) to bracket the search first (speed only; the result is the same
         kind of optimum).
+    start_covers_hz : sequence of (lo, hi)
+        Bands (Hz) over which ``start`` is already known to keep V <= tolerance at this damping (e.g. a
+        whole envelope's bands, for a schedule row's sub-bands): a band inside one of them is not
+        checked again (V over a sub-band never exceeds V over the band; speed only).
 
     Returns
     -------
@@ -185,8 +194,9 @@ def multi_band_shaper(bands_hz, tolerance: float = 0.05, damping_ratio: float = 
         return DESIGN_CACHE.lookup("band_design", key)
     cover = closed_form_cover(bands, tol, zeta)
     candidates = [s for s in (start, cover) if s is not None]
-    candidates = [s for s in candidates if (cycle is None or s.on_grid(cycle))
-                  and worst_over_bands(s, bands, zeta) <= tol * (1.0 + 1e-6)]
+    known = [(s, b) for s, b in ((start, start_covers_hz), (cover, ())) if s is not None]
+    candidates = [s for s, covers in known if (cycle is None or s.on_grid(cycle))
+                  and worst_over_bands(s, _outside(bands, covers), zeta) <= tol * (1.0 + 1e-6)]
     upper = min(candidates, key=lambda s: s.duration_s) if candidates else None
     too_large = None
     try:

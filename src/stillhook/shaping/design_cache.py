@@ -13,6 +13,7 @@ shelf                     what                                                  
 ``undamped_start``        start of the damped EI-family continuation            64
 ``band_design``           band / multi-band shaper designs                      64
 ``project_design``        a project's design and schedule                       32
+``worst_vibration``       a shaper's worst V over a band (dense sampling)       256
 ========================  ====================================================  =========
 
 :func:`clear_design_caches` empties every shelf (or the named ones), e.g. so a benchmark really
@@ -84,7 +85,7 @@ class DesignCache:
 
 #: The shaping stage's cache (see the module docstring for the shelves).
 DESIGN_CACHE = DesignCache({"unit_form": 256, "family_region": 256, "undamped_start": 64,
-                            "band_design": 64, "project_design": 32})
+                            "band_design": 64, "project_design": 32, "worst_vibration": 256})
 
 
 def clear_design_caches(*shelves: str) -> None:

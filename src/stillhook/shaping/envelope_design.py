@@ -33,9 +33,7 @@ from __future__ import annotations
 import contextlib
 import json
 import math
-import multiprocessing
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -51,12 +49,12 @@ from stillhook.shaping.design_store import load_or_make
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
-from stillhook.workers import worker_count
+from stillhook.workers import process_pool, worker_count
 
 __all__ = [
-    "CHECK_GRID", "DESIGN_MARGIN", "Design", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP", "ROW_SPREAD", "Schedule",
-    "design_for_project", "design_schedule", "schedule_for_project", "schedule_ratio",
-    "schedule_row_count", "schedule_rope_lengths",
+    "CHECK_GRID", "DESIGN_MARGIN", "Design", "POOL_MIN_SECONDS", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP",
+    "ROW_SECONDS_PER_IMPULSE", "ROW_SPREAD", "Schedule", "design_for_project", "design_schedule",
+    "schedule_for_project", "schedule_ratio", "schedule_row_count", "schedule_rope_lengths", "schedule_workers",
 ]
 
 #: Design to this fraction below the tolerance (fixed-point amplitude rounding, grid sampling).
@@ -70,9 +68,12 @@ CHECK_GRID = (41, 41)
 ROW_SPREAD = 0.08
 #: Each row's design span is widened by this fraction of its span on both sides (inside the range).
 ROW_OVERLAP = 0.05
-#: Schedule rows run in forked workers where the platform forks (no re-import of numpy/scipy per
-#: worker: ~1 s each on a loaded machine), else in freshly started ones.
-_POOL_CONTEXT = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn")
+#: Estimated design time of one schedule row per impulse of the whole-envelope shaper (s): measured 2-3.3 ms
+#: on the demo, the small gantry and the hard envelope (benchmarks/projects), one core of the shared machine.
+ROW_SECONDS_PER_IMPULSE = 3e-3
+#: Schedule rows go to a process pool only when their estimated serial time exceeds this (s): starting
+#: the workers costs ~0.1 s of CPU (fork, copy-on-write, pickling) and a loaded machine may have no free core.
+POOL_MIN_SECONDS = 1.0
 #: Schedule rows skip trying a low-mode-only shaper when the high mode's share of the payload
 #: participation exceeds this multiple of the tolerance.
 _GATE_SHARE_PER_TOL = 2.0
@@ -263,13 +264,14 @@ def _single_band(method: str, band, tol: float, zeta: float, cycle_s: float) -> 
 
 
 def _both_bands(method: str, bands, tol: float, zeta: float, cycle_s: float, start: Shaper | None = None,
-                with_convolved: bool = True, hint_s: float | None = None) -> tuple[Shaper, Shaper | None]:
+                with_convolved: bool = True, hint_s: float | None = None,
+                start_covers=()) -> tuple[Shaper, Shaper | None]:
     if method in ("auto", "band"):
         if with_convolved:
             r = two_mode_shapers(bands, tol, zeta, cycle_s=cycle_s)
             return r.direct, r.convolved
         return multi_band_shaper(bands, tol, zeta, cycle_s=cycle_s, start=start, name="direct",
-                                 hint_s=hint_s), None
+                                 hint_s=hint_s, start_covers_hz=start_covers), None
     s = _closed_form_for_band(method, bands[0], tol, zeta, cycle_s)
     s = s.convolve(_closed_form_for_band(method, bands[1], tol, zeta, cycle_s))
     return s, s
@@ -277,13 +279,14 @@ def _both_bands(method: str, bands, tol: float, zeta: float, cycle_s: float, sta
 
 def _decide(env, method: str, bands, tol: float, tol_d: float, zeta: float, cycle_s: float,
             grid, start: Shaper | None = None, with_convolved: bool = True, hint_s: float | None = None,
-            gate: bool = False):
+            gate: bool = False, start_covers=()):
     """Return (shaper, convolved, high_treated, reason) for one (sub-)envelope.
 
     With ``gate`` (schedule rows, for speed) a low-mode-only shaper is not even tried when the
     high mode's share of the payload participation exceeds ``_GATE_SHARE_PER_TOL`` times the
     tolerance somewhere: it would need to attenuate the high mode by chance. The gate only ever
-    errs toward treating the mode.
+    errs toward treating the mode. ``start_covers``: bands (Hz) over which ``start`` is known to keep
+    V <= ``tol_d`` (see :func:`stillhook.shaping.band_design.multi_band_shaper`).
     """
     Ls, ms = grid
     if len(bands) == 1:
@@ -291,7 +294,7 @@ def _decide(env, method: str, bands, tol: float, tol_d: float, zeta: float, cycl
         return low, None, False, "single sway mode (no rigging below the hook or no payload): one band treated"
     _, shares = mode_shares(env, Ls, ms)
     if gate and shares[..., 1].max() > _GATE_SHARE_PER_TOL * tol:
-        both, conv = _both_bands(method, bands, tol_d, zeta, cycle_s, start, with_convolved, hint_s)
+        both, conv = _both_bands(method, bands, tol_d, zeta, cycle_s, start, with_convolved, hint_s, start_covers)
         return both, conv, True, (f"high mode treated: it carries up to {100 * shares[..., 1].max():.2f} % of the "
                                   "payload's sway participation")
     low = _single_band(method, bands[0], tol_d, zeta, cycle_s)
@@ -305,8 +308,13 @@ def _decide(env, method: str, bands, tol: float, tol_d: float, zeta: float, cycl
         return low, None, False, f"high mode not treated: {numbers}, within the {100 * tol:g} % tolerance"
     check_below_half_rate([bands[1][1]], cycle_s, what="the high sway mode's highest frequency",
                           detail=f" and it needs treatment ({numbers})")
-    both, conv = _both_bands(method, bands, tol_d, zeta, cycle_s, start, with_convolved, hint_s)
+    both, conv = _both_bands(method, bands, tol_d, zeta, cycle_s, start, with_convolved, hint_s, start_covers)
     return both, conv, True, f"high mode treated: {numbers}, above the {100 * tol:g} % tolerance"
+
+
+def _covered(bands, worst_v, tol_d: float) -> list[tuple[float, float]]:
+    """The bands where a shaper's worst V (``worst_v``, one per band) meets ``tol_d`` (the band designs' slack)."""
+    return [b for b, v in zip(bands, worst_v, strict=True) if v <= tol_d * (1.0 + 1e-6)]
 
 
 def _check_low_band(bands, cycle_s: float) -> None:
@@ -332,8 +340,9 @@ def schedule_rope_lengths(env, max_rows: int) -> np.ndarray:
     return rows
 
 
-def _row_shaper(env, method: str, span_m, tol: float, tol_d: float, cycle: float, whole: Shaper):
-    """(shaper, high mode treated) for the rope-length span ``span_m`` of one schedule row.
+def _row_shaper(env, method: str, span_m, tol: float, tol_d: float, cycle: float, whole: Shaper, covers=()):
+    """(shaper, high mode treated) for the rope-length span ``span_m`` of one schedule row; ``covers``: the
+    bands (Hz) over which ``whole`` keeps V <= ``tol_d``.
 
     A pure function of its arguments (no hint from a neighbouring row), so rows run in any order,
     in any process, and give the same schedule for any worker count.
@@ -344,14 +353,25 @@ def _row_shaper(env, method: str, span_m, tol: float, tol_d: float, cycle: float
     _check_low_band(bands, cycle)
     grid = (np.linspace(a, b, 5), np.linspace(*env.payload_mass_range_kg, CHECK_GRID[1]))
     s, _, high, _ = _decide(sub, method, bands, tol, tol_d, env.damping_ratio, cycle, grid,
-                            start=whole, with_convolved=False, gate=True)
+                            start=whole, with_convolved=False, gate=True, start_covers=covers)
     if s.duration_s > whole.duration_s and method in ("auto", "band"):
         s = whole  # the whole-envelope shaper also serves this row and is shorter
     return s, high
 
 
+def schedule_workers(n_rows: int, whole: Shaper, workers: int | None = None) -> int:
+    """Processes for ``n_rows`` schedule rows: one (in this process) when their estimated serial design time,
+    n_rows x ``whole.n_impulses`` x :data:`ROW_SECONDS_PER_IMPULSE`, is below :data:`POOL_MIN_SECONDS`, else
+    :func:`stillhook.workers.worker_count`; ``workers`` given: that many (at most one per row). The schedule is
+    the same either way (each row is designed from its own span alone).
+    """
+    if workers is None and n_rows * whole.n_impulses * ROW_SECONDS_PER_IMPULSE < POOL_MIN_SECONDS:
+        return 1
+    return worker_count(n_rows, workers)
+
+
 def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], None] | None = None,
-                    total: int = 0, workers: int | None = None) -> Schedule:
+                    total: int = 0, workers: int | None = None, covers_hz=None) -> Schedule:
     """The length schedule of ``project`` (rows solved in parallel), ``whole`` its whole-envelope shaper.
 
     Parameters
@@ -364,8 +384,11 @@ def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], No
     total : int
         The ``total`` passed to ``progress``.
     workers : int, optional
-        Processes (default :func:`stillhook.workers.worker_count`: one per available core). The result does not
-        depend on it: every row is designed from its own span alone.
+        Processes (default :func:`schedule_workers`: one per available core when the rows are estimated to take
+        long enough, else one). The result does not depend on it: every row is designed from its own span alone.
+    covers_hz : list of (lo, hi), optional
+        The whole-envelope bands (Hz) over which ``whole`` is known to keep V within the design tolerance
+        (speed only: the rows do not check it again there); default: found here.
 
     Returns
     -------
@@ -380,12 +403,15 @@ def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], No
     lo_range, hi_range = env.rope_length_range_m
     spans = [(max(lo_range, a - ROW_OVERLAP * (b - a)), min(hi_range, b + ROW_OVERLAP * (b - a)))
              for a, b in probe.row_spans_m()]
-    n_workers = worker_count(len(spans), workers)
-    args = [(env, method, span, tol, tol_d, cycle, whole) for span in spans]
+    if covers_hz is None:
+        bands = _bands(env)
+        covers_hz = _covered(bands, [worst_vibration(whole, lo, hi, env.damping_ratio)[0] for lo, hi in bands], tol_d)
+    n_workers = schedule_workers(len(spans), whole, workers)
+    args = [(env, method, span, tol, tol_d, cycle, whole, tuple(covers_hz)) for span in spans]
     shapers, treated = [], []
     with contextlib.ExitStack() as stack:
         if n_workers > 1:
-            pool = stack.enter_context(ProcessPoolExecutor(n_workers, mp_context=_POOL_CONTEXT))
+            pool = stack.enter_context(process_pool(n_workers))
             results = pool.map(_row_shaper, *zip(*args, strict=True))
         else:
             results = (_row_shaper(*a) for a in args)
@@ -472,7 +498,8 @@ def _design(project, progress=None) -> Design:
     if progress is not None:
         progress(1, total)
     if project.design["schedule"]:
-        schedule = design_schedule(project, shaper, progress=progress, total=total)
+        schedule = design_schedule(project, shaper, progress=progress, total=total,
+                                   covers_hz=_covered(bands, worst_v, tol_d))
         Ls_dense = np.linspace(*env.rope_length_range_m, 4 * CHECK_GRID[0])
         sched_ratio = float(schedule_ratio(env, schedule, Ls_dense, grid[1]).max())
     return Design(shaper=shaper, schedule=schedule, high_mode_treated=high, reason=reason,

@@ -32,6 +32,7 @@ import numpy as np
 
 from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import DesignError
+from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.solvers import bounded_minimum, brent_root
 
 __all__ = [
@@ -356,12 +357,19 @@ def insensitivity_width(shaper: Shaper, design_freq_hz: float, tolerance: float 
 def worst_vibration(shaper: Shaper, f_lo_hz: float, f_hi_hz: float, damping_ratio: float = 0.0) -> tuple[float, float]:
     """Largest V over [f_lo_hz, f_hi_hz]: returns (V_max, frequency in Hz where it occurs).
 
-    Sampled so that V moves < 0.01 between samples, then refined by a bounded scalar search.
+    Sampled so that V moves < 0.01 between samples, then refined by Brent's bounded search
+    (:func:`stillhook.solvers.bounded_minimum` of -V) between the neighbours of the largest sample.
     """
     lo, hi = check_frequency(f_lo_hz), check_frequency(f_hi_hz)
     if lo > hi:
         raise DesignError(f"band [{lo:g}, {hi:g}] Hz has lo > hi; allowed: lo <= hi")
     zeta = check_damping(damping_ratio)
+    # the same check recurs (a band design's verification, then the project's report of it): kept per shaper
+    key = (shaper.times_s.tobytes(), shaper.amplitudes.tobytes(), lo, hi, zeta)
+    return DESIGN_CACHE.get("worst_vibration", key, lambda: _worst_sampled(shaper, lo, hi, zeta))
+
+
+def _worst_sampled(shaper: Shaper, lo: float, hi: float, zeta: float) -> tuple[float, float]:
     n = int(min(2_000_000, max(64, math.ceil((hi - lo) / _grid_step_hz(shaper)) + 1)))
     f = np.linspace(lo, hi, n)
     v = shaper.vibration_at_hz(f, zeta)

@@ -78,8 +78,8 @@ class ModalBatch:
         Undamped mode frequencies, low first. A single-pendulum rig (no payload mass or no
         rigging) has one mode; its second column repeats the first with zero gains. A payload of
         0 kg hangs in line with the rope (:mod:`stillhook.model.modal_batch`).
-    damping_ratio : float in [0, 1)
-        Modal damping ratio of every mode.
+    damping_ratio : float in [0, 1), or ndarray (R,)
+        Modal damping ratio of every mode: one for all rigs, or one per rig (uncertainty studies).
     payload_gain, hook_gain : ndarray (R, 2)
         p_i and q_i of the module docstring (m of offset per m of unit-oscillator response).
     """
@@ -87,32 +87,42 @@ class ModalBatch:
     rope_length_m: np.ndarray
     payload_mass_kg: np.ndarray
     omega_rad_s: np.ndarray
-    damping_ratio: float
+    damping_ratio: float | np.ndarray
     payload_gain: np.ndarray
     hook_gain: np.ndarray
 
     @classmethod
-    def from_envelope(cls, envelope, rope_length_m, payload_mass_kg) -> ModalBatch:
-        """Modes of the rigs ``envelope.rig(L, m)`` for paired 1-D arrays of L (m) and m (kg).
+    def from_envelope(cls, envelope, rope_length_m, payload_mass_kg, *, hook_mass_kg=None, rigging_length_m=None,
+                      damping_ratio=None) -> ModalBatch:
+        """Modes of the rigs ``envelope.rig(L, m, ...)`` for paired 1-D arrays of L (m) and m (kg).
 
+        ``hook_mass_kg`` (kg), ``rigging_length_m`` (m) and ``damping_ratio``, when given, are 1-D arrays
+        paired with L: each rig's own value (an uncertainty study) instead of the envelope's.
         Points may lie outside the envelope's ranges (extrapolation studies) but must be physical.
         """
         L1 = np.atleast_1d(np.asarray(rope_length_m, dtype=float))
         m2 = np.atleast_1d(np.asarray(payload_mass_kg, dtype=float))
-        if L1.shape != m2.shape or L1.ndim != 1:
-            raise ConfigError(f"rope lengths and payload masses must be paired 1-D arrays; got shapes "
-                              f"{L1.shape} and {m2.shape}")
+        per_rig = {"payload_mass_kg": m2, "hook_mass_kg": hook_mass_kg, "rigging_length_m": rigging_length_m,
+                   "damping_ratio": damping_ratio}
+        for key, values in per_rig.items():
+            if values is not None and (np.shape(values) != L1.shape or L1.ndim != 1):
+                raise ConfigError(f"rope lengths and {key.replace('_', ' ')} must be paired 1-D arrays; got "
+                                  f"shapes {L1.shape} and {np.shape(values)}")
         check_quantity_array("rope_length_m", L1, name="rope lengths")
-        check_quantity_array("payload_mass_kg", m2, name="payload masses")
+        given = {key: check_quantity_array(key, values, name=key.replace("_", " "))
+                 for key, values in per_rig.items() if values is not None}
         Lp = envelope.pendulum_length_m(L1)  # pendulum length of the encoder rope lengths L1
         if not np.all(Lp > 0):
             raise ConfigError("rope lengths plus the rope offset must be > 0 (m)")
-        modes = batch_modes(envelope.hook_mass_kg, m2, Lp, envelope.rigging_length_m, envelope.gravity_m_s2)
+        m1 = given.get("hook_mass_kg", envelope.hook_mass_kg)
+        L2 = given.get("rigging_length_m", envelope.rigging_length_m)
+        modes = batch_modes(m1, m2, Lp, L2, envelope.gravity_m_s2)
         # unit-oscillator gains from the step participations: a unit step leaves y_i = -1 / w_i^2
         w = modes.omega_rad_s
         p = -modes.payload_participation_m_per_m_s2 * (w * w)
         q = -modes.hook_participation_m_per_m_s2 * (w * w)
-        return cls(L1, m2, w, float(envelope.damping_ratio), p, q)
+        zeta = given.get("damping_ratio", float(envelope.damping_ratio))
+        return cls(L1, m2, w, zeta, p, q)
 
     @property
     def size(self) -> int:
@@ -120,14 +130,17 @@ class ModalBatch:
 
     @property
     def poles_rad_s(self) -> np.ndarray:
-        """s = -zeta w + j w_d, shape (R, 2)."""
-        z = self.damping_ratio
-        return -z * self.omega_rad_s + 1j * self.omega_rad_s * math.sqrt(1.0 - z * z)
+        """s = -zeta w + j w_d, w_d = w sqrt(1 - zeta^2), shape (R, 2)."""
+        z = np.asarray(self.damping_ratio, dtype=float)
+        z = z[:, None] if z.ndim == 1 else z
+        return -z * self.omega_rad_s + 1j * self.omega_rad_s * np.sqrt(1.0 - z * z)
 
     def take(self, index) -> ModalBatch:
-        """The sub-batch of rigs ``index`` (int array or boolean mask)."""
+        """The sub-batch of rigs ``index`` (int array, slice or boolean mask)."""
+        z = self.damping_ratio
         return ModalBatch(self.rope_length_m[index], self.payload_mass_kg[index], self.omega_rad_s[index],
-                          self.damping_ratio, self.payload_gain[index], self.hook_gain[index])
+                          z[index] if isinstance(z, np.ndarray) else z, self.payload_gain[index],
+                          self.hook_gain[index])
 
 
 @dataclass(frozen=True)

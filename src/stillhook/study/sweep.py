@@ -22,23 +22,26 @@ described in :mod:`stillhook.study.modal_sweep`.
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor
 
 import numpy as np
 
 from stillhook.checks import MAX_SWEEP_RIGS, check_quantity, check_work
 from stillhook.errors import ConfigError
+from stillhook.model.uncertainty import UNCERTAIN_PARAMETERS
 from stillhook.notch.design import notch_for_project
 from stillhook.shaping.envelope_design import design_for_project
 from stillhook.sim.dynamics import SETTLE_WINDOW_S, simulate_batch
 from stillhook.sim.profiles import project_move
-from stillhook.study.modal_sweep import AccelRuns, ModalBatch, end_amplitudes, peak_after_end
+from stillhook.study.modal_sweep import AccelRuns, end_amplitudes, peak_after_end
+from stillhook.study.rig_samples import RigSamples, random_points, random_rigs
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
-from stillhook.workers import worker_count
+from stillhook.workers import process_pool, worker_count
 
-__all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "SpotCheck", "SweepDesign", "SweepResult", "project_designs",
-           "residuals", "spot_checks", "sweep_project"]
+__all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "RigSamples", "SpotCheck", "SweepDesign", "SweepResult",
+           "grid_points", "project_designs", "random_points", "random_rigs", "residuals", "spot_checks",
+           "sweep_project"]
 
 #: Designs the sweep knows, in output order.
 DESIGN_KEYS = ("unshaped", "shaper", "schedule", "notch")
@@ -112,17 +115,13 @@ def grid_points(envelope, n_rope: int, n_payload: int) -> tuple[np.ndarray, np.n
     return L.ravel(), m.ravel()
 
 
-def random_points(envelope, n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarray]:
-    """``n`` rigs drawn uniformly over the envelope's rectangle (numpy PCG64, fixed ``seed``)."""
-    check_quantity("random_rigs", n, name="number of samples")
-    rng = np.random.default_rng(seed)
-    (L0, L1), (m0, m1) = envelope.rope_length_range_m, envelope.payload_mass_range_kg
-    return rng.uniform(L0, L1, n) if L1 > L0 else np.full(n, L0), rng.uniform(m0, m1, n) if m1 > m0 else np.full(n, m0)
-
-
 # -- the sweep -----------------------------------------------------------------------------------
-def _chunk_residuals(batch: ModalBatch, runs, settle_s: float, rows) -> np.ndarray:
-    """Residual sway (designs, r) of one chunk of rigs; runs[i][row] are design i's AccelRuns."""
+def _chunk_residuals(rigs, envelope, runs, settle_s: float, rows) -> np.ndarray:
+    """Residual sway (designs, r) of one chunk of rigs; runs[i][row] are design i's AccelRuns.
+
+    ``rigs`` is a ModalBatch, or RigSamples whose modes are computed here (``envelope`` given).
+    """
+    batch = rigs if envelope is None else rigs.modal_batch(envelope)
     R = batch.size
     Y = np.zeros((len(runs), R, 2), dtype=complex)
     for i, (design_runs, design_rows) in enumerate(zip(runs, rows, strict=True)):
@@ -133,24 +132,42 @@ def _chunk_residuals(batch: ModalBatch, runs, settle_s: float, rows) -> np.ndarr
     return peak_after_end(batch, Y, settle_s)
 
 
-def residuals(batch: ModalBatch, designs, cycle_s: float, *, settle_s: float = SETTLE_WINDOW_S,
+def residuals(rigs, designs, cycle_s: float, *, envelope=None, settle_s: float = SETTLE_WINDOW_S,
               progress: Callable[[int, int], None] | None = None, workers: int | None = None) -> dict:
-    """Residual payload sway (m) of every rig of ``batch`` under every design: {key: ndarray (R,)}.
+    """Residual payload sway (m) of every rig under every design: {key: ndarray (R,)}.
 
+    Parameters
+    ----------
+    rigs : ModalBatch, or RigSamples with ``envelope``
+        The rigs. For RigSamples the modes are computed chunk by chunk in the workers.
+    designs : sequence of SweepDesign
+    cycle_s : float > 0
+    envelope : stillhook.model.envelope.Envelope, optional
+        Needed (only) with RigSamples.
+    settle_s : float > 0
+    progress : callable(done, total), optional
+    workers : int, optional
+        Worker processes; default one per available core when there are several chunks.
+
+    Notes
+    -----
     The rigs are taken CHUNK_RIGS at a time, so the working memory does not grow with the rig count
-    (only the results, 8 bytes per rig and design); chunks run in ``workers`` processes (default one
-    per available core when there are several chunks). Results do not depend on the worker count.
+    (only the rigs and results, 8 bytes per rig and quantity); chunks are fixed by the rig count alone,
+    so the results do not depend on the worker count.
     """
-    R = batch.size
+    if isinstance(rigs, RigSamples) and envelope is None:
+        raise ConfigError("residuals of RigSamples need the envelope; allowed: envelope=project.envelope")
+    env = envelope if isinstance(rigs, RigSamples) else None
+    R = rigs.size
     runs = [[AccelRuns.from_speed(cmd, cycle_s) for cmd in d.commands] for d in designs]
-    rows = [d.rows_for(batch.rope_length_m) for d in designs]
+    rows = [d.rows_for(rigs.rope_length_m) for d in designs]
     chunks = [slice(b, min(b + CHUNK_RIGS, R)) for b in range(0, R, CHUNK_RIGS)]
     n_workers = worker_count(len(chunks), workers)
-    args = ((batch.take(sl), runs, settle_s, [r[sl] for r in rows]) for sl in chunks)
+    args = ((rigs.take(sl), env, runs, settle_s, [r[sl] for r in rows]) for sl in chunks)
     out = np.empty((len(designs), R))
     with contextlib.ExitStack() as stack:
         if n_workers > 1:
-            pool = stack.enter_context(ProcessPoolExecutor(n_workers))
+            pool = stack.enter_context(process_pool(n_workers))
             parts = pool.map(_chunk_residuals, *zip(*args, strict=True))
         else:
             parts = (_chunk_residuals(*a) for a in args)
@@ -167,48 +184,102 @@ UNCHECKED_KEYS = ()
 
 
 def spot_checks(project, designs, points, cycle_s: float) -> list[SpotCheck]:
-    """Re-run ``points`` [(L, m), ...] on the nonlinear simulator for every design not in UNCHECKED_KEYS."""
+    """Re-run ``points`` on the nonlinear simulator for every design not in UNCHECKED_KEYS.
+
+    ``points`` is a RigSamples (each rig with its own uncertain parameters) or a list [(L, m), ...] of
+    rigs with the envelope's hook mass, rigging length and damping.
+    """
     designs = [d for d in designs if d.key not in UNCHECKED_KEYS]
     env = project.envelope
-    L = np.array([p[0] for p in points])
-    m = np.array([p[1] for p in points])
-    lin = residuals(ModalBatch.from_envelope(env, L, m), designs, cycle_s)
-    runs = [(n, d) for n in range(len(points)) for d in designs]
-    sims = simulate_batch([env.rig(L[n], m[n]) for n, _ in runs],
-                          [d.commands[int(d.rows_for(L[n]))] for n, d in runs], cycle_s)
+    if not isinstance(points, RigSamples):
+        L, m = (np.array([p[i] for p in points], dtype=float) for i in (0, 1))
+        points = RigSamples(L, m)
+    lin = residuals(points, designs, cycle_s, envelope=env)
+    L = points.rope_length_m
+    runs = [(n, d) for n in range(points.size) for d in designs]
+    rigs = [points.rig(env, n) for n in range(points.size)]
+    sims = simulate_batch([rigs[n] for n, _ in runs], [d.commands[int(d.rows_for(L[n]))] for n, d in runs], cycle_s)
     out = []
-    for n, (Ln, mn) in enumerate(points):
+    for n in range(points.size):
         mine = [(d, sim) for (i, d), sim in zip(runs, sims, strict=True) if i == n]
         nonlin = {d.key: sim.residual_payload_sway_m for d, sim in mine}
         peak = next((sim.peak_payload_offset_m for d, sim in mine if d.key == "unshaped"), 0.0)
-        out.append(SpotCheck(float(Ln), float(mn), {d.key: float(lin[d.key][n]) for d in designs}, nonlin, peak))
+        p = points.parameters(env, n)
+        out.append(SpotCheck(p.pop("rope_length_m"), p.pop("payload_mass_kg"),
+                             {d.key: float(lin[d.key][n]) for d in designs}, nonlin, peak, p))
     return out
+
+
+def worst_rigs(result: SweepResult) -> list[int]:
+    """Indices of the rigs with the worst ratio to the unshaped residual, one per design (distinct, in design
+    order; the unshaped move has no ratio)."""
+    out: list[int] = []
+    for key in result.keys:
+        if key != "unshaped":
+            n = int(np.argmax(result.ratio(key)))
+            if n not in out:
+                out.append(n)
+    return out
+
+
+def _sweep_rigs(project, grid, samples, seed, vary_rig: bool) -> tuple[RigSamples, tuple | None, list]:
+    """The sweep's rigs, the grid shape (None for samples) and notes on how uncertain parameters are treated."""
+    env, unc = project.envelope, project.uncertainty
+    uncertain = unc is not None and bool(unc.uncertain)
+    notes = []
+    if samples is not None:
+        n = check_quantity("random_rigs", samples, name="samples")
+        rigs = random_rigs(env, n, seed, unc if vary_rig else None)
+        if uncertain and not vary_rig:
+            notes.append("hook mass, rigging length and damping held at their [rig] values (nominal rig), "
+                         "not sampled over [uncertainty]")
+        return rigs, None, notes
+    if grid is None or len(grid) != 2:
+        raise ConfigError(f"grid = {grid!r}; allowed: (n_rope, n_payload), each >= 1")
+    n_rope, n_payload = (check_quantity("grid_points", v, name="grid") for v in grid)
+    # a range that is one point gets one grid line, not n copies of the same rig
+    n_rope = 1 if env.rope_length_range_m[0] == env.rope_length_range_m[1] else n_rope
+    n_payload = 1 if env.payload_mass_range_kg[0] == env.payload_mass_range_kg[1] else n_payload
+    L, m = grid_points(env, n_rope, n_payload)
+    if uncertain:
+        notes.append("the grid holds hook mass, rigging length and damping at their [rig] values; random "
+                     "samples (--samples) also draw them over [uncertainty]")
+    return RigSamples(L, m), (n_rope, n_payload), notes
 
 
 def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, samples: int | None = None,
                   seed: int = 0, distance_m: float | None = None, keys=DESIGN_KEYS, design=None, notch=None,
-                  check: bool = True, progress: Callable[[int, int], None] | None = None) -> SweepResult:
+                  check: bool = True, progress: Callable[[int, int], None] | None = None,
+                  vary_rig: bool = True, workers: int | None = None) -> SweepResult:
     """Residual sway of each design over the project's envelope.
 
     Parameters
     ----------
     project : stillhook.project.Project
     grid : (n_rope >= 1, n_payload >= 1), default (21, 21)
-        Evenly spaced grid over the envelope; ignored when ``samples`` is given.
-    samples : int >= 1, optional
-        Random rigs drawn uniformly over the envelope instead (reproducible with ``seed``).
-    seed : int
+        Evenly spaced grid over the envelope; ignored when ``samples`` is given. Hook mass, rigging length
+        and damping keep their ``[rig]`` values.
+    samples : int in [1, 10^6], optional
+        Random rigs drawn uniformly over the envelope instead (reproducible with ``seed``), and over the
+        ranges of ``[uncertainty]`` (hook mass, rigging length, damping) when the project gives them.
+    seed : int in [0, 2^32 - 1]
     distance_m : float in (0, 1000], optional
         Travel distance of the move; default the project's ``[move] distance_m``. The move is the project's
         (``[move] profile`` at the drive's limits) with the rope length held: hoisting is in the comparison.
     keys : sequence of str
         Designs to sweep (subset of :data:`DESIGN_KEYS`).
     design, notch : optional
-        Pre-computed ``design_for_project(project)`` / ``notch_for_project(project)``.
+        Pre-computed ``design_for_project(project)`` / ``notch_for_project(project)``. The designs are always
+        made for the nominal rig.
     check : bool, default True
-        Re-run the envelope's corners on the nonlinear simulator and report the disagreement.
+        Re-run the envelope's corners (and, for random samples, each design's worst sampled rig) on the
+        nonlinear simulator and report the disagreement.
     progress : callable(done, total), optional
         Called as blocks of rigs finish.
+    vary_rig : bool, default True
+        False holds hook mass, rigging length and damping at ``[rig]`` for random samples too.
+    workers : int, optional
+        Worker processes (default one per available core); the results do not depend on it.
 
     Returns
     -------
@@ -219,22 +290,10 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
     T = drive["cycle_s"]
     d_m = project.move["distance_m"] if distance_m is None else check_quantity("distance_m", distance_m)
     speed, _ = project_move(project, d_m)  # the project's move; the linear sweep holds the rope length
-    if samples is not None:
-        L, m = random_points(env, check_quantity("random_rigs", samples, name="samples"), seed)
-        shape = None
-    else:
-        if grid is None or len(grid) != 2:
-            raise ConfigError(f"grid = {grid!r}; allowed: (n_rope, n_payload), each >= 1")
-        n_rope, n_payload = (check_quantity("grid_points", v, name="grid") for v in grid)
-        # a range that is one point gets one grid line, not n copies of the same rig
-        n_rope = 1 if env.rope_length_range_m[0] == env.rope_length_range_m[1] else n_rope
-        n_payload = 1 if env.payload_mass_range_kg[0] == env.payload_mass_range_kg[1] else n_payload
-        L, m = grid_points(env, n_rope, n_payload)
-        shape = (n_rope, n_payload)
+    rigs, shape, rig_notes = _sweep_rigs(project, grid, samples, seed, vary_rig)
     designs, notes = project_designs(project, speed, keys=keys, design=design, notch=notch)
-    batch = ModalBatch.from_envelope(env, L, m)
-    res = residuals(batch, designs, T, progress=progress)
-    checks = spot_checks(project, designs, env.corners(), T) if check else []
+    notes += rig_notes
+    res = residuals(rigs, designs, T, envelope=env, progress=progress, workers=workers)
     if check and any(d.key in UNCHECKED_KEYS for d in designs):
         notes.append("spot checks: the notch is not re-run on the nonlinear simulator (its ring-out makes "
                      "that slow); the linear model's error is second order in the sway amplitude")
@@ -244,5 +303,17 @@ def sweep_project(project, *, grid: tuple[int, int] | None = DEFAULT_GRID, sampl
             "max_accel_m_s2": drive["max_accel_m_s2"], "cycle_s": T,
             "command_end_s": AccelRuns.from_speed(speed, T).command_end_s, "settle_window_s": SETTLE_WINDOW_S,
             "hoisting": False}
-    return SweepResult(L, m, shape, tuple(designs), res, project.design["tolerance_pct"] / 100.0, move,
-                       tuple(checks), tuple(notes))
+    nominal = {k: float(getattr(env, k)) for k in UNCERTAIN_PARAMETERS}
+    described = project.uncertainty.describe() if rigs.varied else {}
+    result = SweepResult(rigs.rope_length_m, rigs.payload_mass_kg, shape, tuple(designs), res,
+                         project.design["tolerance_pct"] / 100.0, move, (), tuple(notes), rigs.varied, nominal,
+                         described)
+    if not check:
+        return result
+    corners = env.corners()
+    points = RigSamples(np.array([c[0] for c in corners]), np.array([c[1] for c in corners]),
+                        {k: np.full(len(corners), nominal[k]) for k in rigs.varied})
+    if shape is None:  # random samples: each design's worst sampled rig too
+        points = points.join(rigs.take(np.array(worst_rigs(result), dtype=np.int64)))
+    return dataclasses.replace(result, spot_checks=tuple(spot_checks(project, designs, points, T)),
+                               spot_check_worst=points.size - len(corners))

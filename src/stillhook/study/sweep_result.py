@@ -60,7 +60,8 @@ class SpotCheck:
     disagreement of a design: |linear - nonlinear| over the nonlinear unshaped residual (the scale
     the tolerance is on; large where the unshaped move happens to leave little sway), and over the
     peak unshaped sway during the move, ``unshaped_peak_m`` (the scale of the nonlinear terms,
-    which are second order in the sway angle).
+    which are second order in the sway angle). ``rig`` holds the rig's hook mass, rigging length and
+    damping ratio (sampled or nominal).
     """
 
     rope_length_m: float
@@ -68,6 +69,7 @@ class SpotCheck:
     linear_m: dict
     nonlinear_m: dict
     unshaped_peak_m: float = 0.0
+    rig: dict = field(default_factory=dict)
 
     def disagreement(self, key: str) -> float:
         base = self.nonlinear_m["unshaped"]
@@ -78,7 +80,7 @@ class SpotCheck:
         return abs(self.linear_m[key] - self.nonlinear_m[key]) / base if base > 0 else 0.0
 
     def as_dict(self) -> dict:
-        return {"rope_length_m": self.rope_length_m, "payload_mass_kg": self.payload_mass_kg,
+        return {"rope_length_m": self.rope_length_m, "payload_mass_kg": self.payload_mass_kg, **self.rig,
                 "linear_residual_m": dict(self.linear_m), "nonlinear_residual_m": dict(self.nonlinear_m),
                 "unshaped_peak_during_move_m": self.unshaped_peak_m,
                 "disagreement": {k: self.disagreement(k) for k in self.linear_m},
@@ -103,6 +105,17 @@ class SweepResult:
     move : dict
         distance_m, max_speed_m_s, max_accel_m_s2, cycle_s, command_end_s, settle_window_s.
     spot_checks : tuple of SpotCheck
+        The envelope's corners (nominal rig), then for random samples each design's worst sampled rig.
+    notes : tuple of str
+    varied : dict
+        {parameter: ndarray (R,)} of the uncertain parameters sampled per rig (hook_mass_kg,
+        rigging_length_m, damping_ratio); empty when every rig has the nominal values.
+    nominal_rig : dict
+        The ``[rig]`` values of hook_mass_kg, rigging_length_m and damping_ratio (the design's).
+    uncertainty : dict
+        Range and source of each sampled parameter (``RigUncertainty.describe``); empty when none is sampled.
+    spot_check_worst : int
+        How many of ``spot_checks`` (the last ones) are worst sampled rigs.
     """
 
     rope_length_m: np.ndarray
@@ -114,6 +127,10 @@ class SweepResult:
     move: dict
     spot_checks: tuple[SpotCheck, ...] = ()
     notes: tuple[str, ...] = field(default=())
+    varied: dict = field(default_factory=dict)
+    nominal_rig: dict = field(default_factory=dict)
+    uncertainty: dict = field(default_factory=dict)
+    spot_check_worst: int = 0
 
     @property
     def keys(self) -> list[str]:
@@ -132,8 +149,16 @@ class SweepResult:
         values = self.ratio(key) if ratio else self.residual_m[key]
         return values.reshape(self.grid_shape)
 
+    def rig_at(self, n: int) -> dict:
+        """Every parameter of rig ``n``: rope length, payload mass, hook mass, rigging length, damping ratio."""
+        out = {"rope_length_m": float(self.rope_length_m[n]), "payload_mass_kg": float(self.payload_mass_kg[n])}
+        for key, value in self.nominal_rig.items():
+            out[key] = float(self.varied[key][n]) if key in self.varied else value
+        return out
+
     def summary(self) -> dict:
-        """Per design: worst residual and where, worst ratio, share of rigs within the tolerance."""
+        """Per design: worst residual and its rig (all parameters), worst ratio and its rig, share of rigs
+        within the tolerance."""
         out = {}
         for d in self.designs:
             r, q = self.residual_m[d.key], self.ratio(d.key)
@@ -142,11 +167,9 @@ class SweepResult:
                 "label": d.label,
                 "added_s": d.added_s,
                 "worst_residual_m": float(r[i]),
-                "worst_residual_at": {"rope_length_m": float(self.rope_length_m[i]),
-                                      "payload_mass_kg": float(self.payload_mass_kg[i])},
+                "worst_residual_at": self.rig_at(i),
                 "worst_ratio": float(q[j]),
-                "worst_ratio_at": {"rope_length_m": float(self.rope_length_m[j]),
-                                   "payload_mass_kg": float(self.payload_mass_kg[j])},
+                "worst_ratio_at": self.rig_at(j),
                 "share_within_tolerance": float(np.mean(q <= self.tolerance * (1 + 1e-9))),
             }
         return out
@@ -159,12 +182,17 @@ class SweepResult:
         """Largest spot-check disagreement over rigs and designs (fraction of unshaped), 0 if none."""
         return max((c.disagreement(k) for c in self.spot_checks for k in c.linear_m), default=0.0)
 
-    def as_dict(self) -> dict:
-        """JSON-ready result (deterministic key order)."""
-        keys = self.keys
-        points = [{"rope_length_m": float(L), "payload_mass_kg": float(m),
+    def iter_points(self):
+        """Every rig as a JSON-ready dict (rope, payload, the sampled parameters, residual per design), one at a
+        time (``outputs.write_json`` streams a million of them in bounded memory)."""
+        keys, varied = self.keys, list(self.varied.items())
+        for n, (L, m) in enumerate(zip(self.rope_length_m.tolist(), self.payload_mass_kg.tolist(), strict=True)):
+            yield {"rope_length_m": L, "payload_mass_kg": m, **{k: float(v[n]) for k, v in varied},
                    "residual_payload_sway_m": {k: float(self.residual_m[k][n]) for k in keys}}
-                  for n, (L, m) in enumerate(zip(self.rope_length_m, self.payload_mass_kg, strict=True))]
+
+    def as_dict(self, *, points: bool = True) -> dict:
+        """JSON-ready result (deterministic key order); ``points=False`` leaves ``"points"`` empty (to stream
+        :meth:`iter_points` in its place)."""
         return {
             "move": dict(self.move),
             "tolerance": self.tolerance,
@@ -178,12 +206,14 @@ class SweepResult:
             "accuracy": {
                 "method": "exact discretization of the linear model (modal, piecewise-constant acceleration)",
                 "spot_checks": [c.as_dict() for c in self.spot_checks],
+                "spot_checks_worst_sampled": self.spot_check_worst,
                 "max_disagreement": self.max_disagreement(),
                 "disagreement_definition": "|linear - nonlinear| / nonlinear unshaped residual at that rig",
                 "max_disagreement_of_peak": self.max_disagreement_of_peak(),
                 "disagreement_of_peak_definition": "|linear - nonlinear| / nonlinear unshaped peak sway during "
                                                    "the move at that rig",
             },
+            "rig": {"nominal": dict(self.nominal_rig), "sampled": dict(self.uncertainty)},
             "notes": list(self.notes),
-            "points": points,
+            "points": list(self.iter_points()) if points else [],
         }
