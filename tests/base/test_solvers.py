@@ -169,8 +169,8 @@ def test_square_system_agrees_with_fsolve(case):
 
 
 def test_square_system_known_root_cap_and_shape():
-    # the third system of Burden & Faires, Numerical Analysis (Newton's method for systems), root (0.5, 0, -pi/6)
-    # (from memory)
+    # the worked nonlinear system of Burden & Faires, Numerical Analysis, ch. 10 (Newton's method for systems; from
+    # memory), root (0.5, 0, -pi/6): each equation checked by substitution
     F, x0 = SYSTEMS[3]
     np.testing.assert_allclose(solve_square_system(F, x0, xtol=1e-13), [0.5, 0.0, -math.pi / 6.0], atol=1e-12)
     rosenbrock, start = SYSTEMS[0]
