@@ -16,6 +16,7 @@ from stillhook.shaping.envelope_design import (
     ROW_SECONDS_PER_IMPULSE,
     design_for_project,
     design_schedule,
+    envelope_shaper_for_project,
     schedule_for_project,
     schedule_ratio,
     schedule_workers,
@@ -212,3 +213,16 @@ def test_small_schedules_stay_in_this_process_and_large_ones_go_to_the_pool():
     assert schedule_workers(10, shaper_of(many)) == worker_count(10)
     assert schedule_workers(10, shaper_of(few), workers=2) == 2  # an explicit count wins
     assert schedule_workers(1, shaper_of(many), workers=4) == 1
+
+
+def test_the_shaper_only_design_is_the_full_designs_shaper(demo_project, demo_design):
+    # designed afresh without the schedule rows, then taken from the full design once that exists
+    with DESIGN_CACHE.emptied():
+        alone = envelope_shaper_for_project(demo_project)
+        assert alone.schedule is None
+        np.testing.assert_array_equal(alone.shaper.times_s, demo_design.shaper.times_s)
+        np.testing.assert_array_equal(alone.shaper.amplitudes, demo_design.shaper.amplitudes)
+        assert (alone.reason, alone.high_mode_treated, alone.worst_ratio) == (
+            demo_design.reason, demo_design.high_mode_treated, demo_design.worst_ratio)
+        full = design_for_project(demo_project)
+        assert envelope_shaper_for_project(demo_project) is full

@@ -38,6 +38,7 @@ _EXPORTS = {
     "schedule_rope_lengths": "stillhook.shaping.envelope_design",
     "schedule_ratio": "stillhook.shaping.envelope_design",
     "design_for_project": "stillhook.shaping.envelope_design",
+    "envelope_shaper_for_project": "stillhook.shaping.envelope_design",
     "schedule_for_project": "stillhook.shaping.envelope_design",
     "DESIGN_MARGIN": "stillhook.shaping.envelope_design",
     "CHECK_GRID": "stillhook.shaping.envelope_design",

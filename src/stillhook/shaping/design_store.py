@@ -26,7 +26,7 @@ import scipy
 
 from stillhook.sim.kernel import cache_dir
 
-__all__ = ["code_identity", "design_store_path", "load_or_make"]
+__all__ = ["code_identity", "design_store_path", "load_or_make", "load_stored"]
 
 _IDENTITY: list[str] = []
 
@@ -51,8 +51,8 @@ def design_store_path(key: str) -> Path | None:
     return cache_dir() / "designs" / f"{digest}.pickle"
 
 
-def load_or_make(key: str, make):
-    """The cached design for ``key``, or ``make()`` stored for next time."""
+def load_stored(key: str):
+    """The stored design for ``key``; None when there is none (or the store is off, or the file is unreadable)."""
     path = design_store_path(key)
     if path is not None and path.is_file():
         try:
@@ -60,6 +60,15 @@ def load_or_make(key: str, make):
                 return pickle.load(f)
         except (OSError, EOFError, pickle.UnpicklingError, AttributeError, ImportError, TypeError):
             pass  # unreadable or from an incompatible object layout: design afresh and replace it
+    return None
+
+
+def load_or_make(key: str, make):
+    """The cached design for ``key``, or ``make()`` stored for next time."""
+    stored = load_stored(key)
+    if stored is not None:
+        return stored
+    path = design_store_path(key)
     value = make()
     if path is not None:
         try:

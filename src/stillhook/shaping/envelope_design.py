@@ -45,7 +45,7 @@ from stillhook.shaping.band_design import band_shaper, family_region, multi_band
 from stillhook.shaping.closed_forms import CLOSED_FORMS
 from stillhook.shaping.cycle_grid import to_cycle_grid
 from stillhook.shaping.design_cache import DESIGN_CACHE
-from stillhook.shaping.design_store import load_or_make
+from stillhook.shaping.design_store import load_or_make, load_stored
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
@@ -54,7 +54,8 @@ from stillhook.workers import process_pool, worker_count
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "POOL_MIN_SECONDS", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP",
     "ROW_SECONDS_PER_IMPULSE", "ROW_SPREAD", "Schedule", "design_for_project", "design_schedule",
-    "schedule_for_project", "schedule_ratio", "schedule_row_count", "schedule_rope_lengths", "schedule_workers",
+    "envelope_shaper_for_project", "schedule_for_project", "schedule_ratio", "schedule_row_count",
+    "schedule_rope_lengths", "schedule_workers",
 ]
 
 #: Design to this fraction below the tolerance (fixed-point amplitude rounding, grid sampling).
@@ -463,6 +464,23 @@ def design_for_project(project, *, progress: Callable[[int, int], None] | None =
     key = _key(project, "design")
     # in-process cache first, then the disk store (a design this code computed before), else design now
     return DESIGN_CACHE.get("project_design", key, lambda: load_or_make(key, lambda: _design(project, progress)))
+
+
+def envelope_shaper_for_project(project) -> Design:
+    """The project's whole-envelope shaper design, without designing the schedule rows.
+
+    For what needs the one shaper only (the comparison): the schedule rows are most of a design's time. A full
+    design (:func:`design_for_project`) already made in this process or stored on disk is returned as it is;
+    otherwise the project is designed with ``[design] schedule = false``. The whole-envelope shaper, its
+    reason and its checks are the same either way (the schedule is designed after the shaper, from it).
+    """
+    full_key = _key(project, "design")
+    full = DESIGN_CACHE.lookup("project_design", full_key)
+    if full is None:
+        full = load_stored(full_key)
+    if full is not None or not project.design["schedule"]:
+        return full if full is not None else design_for_project(project)
+    return design_for_project(replace(project, design={**project.design, "schedule": False}))
 
 
 def schedule_row_count(project) -> int:

@@ -8,7 +8,8 @@ rig, hoisting included when the project asks for it) and the result is run on th
 - ``zv``, ``zvd``, ``ei``: the classic single-mode shapers, tuned to the nominal mode that moves the
   payload most (normally the low mode), damped forms at the rig's damping ratio.
 - ``band``: the shortest shaper with V <= tolerance over that mode's band over the envelope.
-- ``two_mode``: the project's design (:func:`stillhook.shaping.envelope_design.design_for_project`), which treats both
+- ``two_mode``: the project's design (:func:`stillhook.shaping.envelope_design.envelope_shaper_for_project`: the
+  whole-envelope shaper of ``design_for_project``, without its schedule rows), which treats both
   modes over the envelope or says why the high mode can be skipped.
 - ``notch``: the project's notch cascade (:func:`stillhook.notch.design.notch_for_project`), both modes.
 
@@ -55,7 +56,7 @@ from stillhook.notch.design import notch_for_project
 from stillhook.shaping import closed_forms as shapers
 from stillhook.shaping.band_design import band_shaper
 from stillhook.shaping.cycle_grid import to_cycle_grid
-from stillhook.shaping.envelope_design import design_for_project
+from stillhook.shaping.envelope_design import envelope_shaper_for_project
 from stillhook.sim.command_filter import UNFILTERED, CommandFilter
 from stillhook.sim.dynamics import simulate_batch, time_within_s
 from stillhook.sim.profiles import project_move
@@ -185,7 +186,7 @@ def candidates(project) -> tuple[list[Candidate], list[str]]:
                      f"narrowest design band {lo:.4g}-{hi:.4g} Hz (about +-10 %) is used, as by the shaper and notch")
     out.append(Candidate("band", "band", band_shaper(lo, hi, tol, zeta, cycle_s=T),
                          f"mode {i + 1} band {lo:.4g}-{hi:.4g} Hz"))
-    design = design_for_project(project)
+    design = envelope_shaper_for_project(project)  # the one shaper; the comparison needs no schedule rows
     out.append(Candidate("two_mode", "two-mode (project design)", design.shaper,
                          "both bands" if design.high_mode_treated else "low band only (see reason)"))
     notes.append(f"project design: {design.reason}")
