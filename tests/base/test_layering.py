@@ -23,6 +23,7 @@ PACKAGE = Path(str(resources.files("stillhook")))
 STAGES = {
     "stillhook.version": 0, "stillhook.errors": 0, "stillhook.cautions": 0, "stillhook.checks": 1,
     "stillhook.lazy": 1, "stillhook.outputs": 1, "stillhook.fixed_point": 1, "stillhook.workers": 1,
+    "stillhook.solvers": 1,
     "stillhook.model": 2, "stillhook.project": 3, "stillhook.sim": 4,
     "stillhook.shaping": 5, "stillhook.notch": 5, "stillhook.feedback": 5,
     "stillhook.firmware": 6, "stillhook.study": 6, "stillhook.commission": 6, "stillhook.report": 7, "stillhook.cli": 8,

@@ -2,8 +2,8 @@
 
 The papers give closed forms for the undamped case and curve fits in the damping ratio for the
 damped case. Here the damped shapers are solved directly from the same conditions, by
-continuation in zeta from the undamped closed form (steps of at most 0.02), so they are exact
-to solver precision rather than to a fit.
+continuation in zeta from the undamped closed form (steps of at most 0.02, halved where a step
+fails), so they are exact to solver precision rather than to a fit.
 
 Work in normalized time (design frequency w0 = 1 rad/s); the caller divides times by w0.
 With z(w) = sum_i A_i exp(-zeta w (t_n - t_i)) exp(-j w_d t_i), V(w) = |z(w)|, and:
@@ -24,17 +24,21 @@ Singhose, Singer & Seering, ASME JDSMC 119(2):198-205, 1997 (UM-ZV). All from me
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 
 from stillhook.errors import DesignError
 from stillhook.shaping.design_cache import DESIGN_CACHE
 from stillhook.shaping.shaper import check_tolerance
+from stillhook.solvers import solve_square_system
 
 __all__ = ["damped_hump_shaper", "damped_umzv_times", "undamped_hump_amplitudes"]
 
 _MAX_ZETA_STEP = 0.02
+#: Newton steps per continuation step (from the previous damping ratio's solution it needs ~3-6).
+_MAX_NEWTON_STEPS = 12
+#: Smallest continuation step in zeta: a failed step is halved down to this.
+_MIN_ZETA_STEP = 1e-4
 
 
 def _z_and_slope(A: np.ndarray, t: np.ndarray, w: np.ndarray, zeta: float) -> tuple[np.ndarray, np.ndarray]:
@@ -88,53 +92,32 @@ def _undamped_features(A: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.nda
     return zeros, np.array(humps)
 
 
-#: Newton iterations per continuation step (it converges in a few from the previous step's solution).
-_NEWTON_ITERATIONS = 50
+def _continue(residual, x: np.ndarray, target: float, what: str) -> np.ndarray:
+    """x with residual(x, target) = 0, by continuation in zeta from the solution ``x`` at zeta = 0.
 
-
-def _newton(fun, x0: np.ndarray) -> np.ndarray:
-    """Solve fun(x) = 0 (as many equations as unknowns) from x0: Newton's method with a forward-difference
-    Jacobian, each step halved until the residual falls; stops when the step is below 1e-13 relative.
-
-    Notes
-    -----
-    Newton's method with a backtracking line search: Nocedal & Wright, *Numerical Optimization*, 2nd ed.,
-    Springer, 2006, ch. 11 (from memory); difference step sqrt(machine epsilon) x max(|x|, 1), same source.
+    Steps of at most ``_MAX_ZETA_STEP``; each is solved by Newton (``solvers.solve_square_system``) from
+    the previous solution moved along the secant through the last two (x + (zeta - zeta_done) dx/dzeta)
+    and accepted when max |residual| <= 1e-9. A step that fails is halved
+    (near the heaviest damping a form allows, its impulses move fast with zeta) down to
+    ``_MIN_ZETA_STEP``, below which the branch is taken to end there. (Letting the step grow again
+    after a success costs more than it saves: each failed step costs a full Newton run.)
     """
-    x = np.array(x0, dtype=float)
-    f = fun(x)
-    norm = float(np.linalg.norm(f))
-    for _ in range(_NEWTON_ITERATIONS):
-        if norm == 0.0:
-            break
-        dx = 1.49e-8 * np.maximum(np.abs(x), 1.0)
-        J = np.empty((f.size, x.size))
-        for j in range(x.size):
-            xj = x.copy()
-            xj[j] += dx[j]
-            J[:, j] = (fun(xj) - f) / dx[j]
-        step = np.linalg.lstsq(J, -f, rcond=None)[0]
-        for _halving in range(30):
-            x_new = x + step
-            f_new = fun(x_new)
-            if float(np.linalg.norm(f_new)) < norm:
-                break
-            step = 0.5 * step
+    done, step = 0.0, target / max(1, math.ceil(target / _MAX_ZETA_STEP))
+    slope = np.zeros_like(x)  # dx/dzeta from the last two solutions (secant predictor)
+    while done < target:
+        zeta = target if done + step > target * (1.0 - 1e-12) else done + step
+        with np.errstate(all="ignore"):  # trial points far off may overflow; the residual decides
+            x_new = solve_square_system(lambda x, zeta=zeta: residual(x, zeta), x + (zeta - done) * slope,
+                                        xtol=1e-13, max_iter=_MAX_NEWTON_STEPS)
+            solved = bool(np.max(np.abs(residual(x_new, zeta))) <= 1e-9)
+        if solved:
+            x, done, slope = x_new, zeta, (x_new - x) / (zeta - done)
+        elif step / 2.0 >= _MIN_ZETA_STEP:
+            step /= 2.0
         else:
-            break  # no step lowers the residual: as close as this start gets
-        x, f, norm = x_new, f_new, float(np.linalg.norm(f_new))
-        if np.max(np.abs(step)) <= 1e-13 * (np.max(np.abs(x)) + 1e-13):
-            break
-    return x
-
-
-def _solve(fun, x0: np.ndarray, what: str, zeta: float) -> np.ndarray:
-    with warnings.catch_warnings():  # overflow on a wild trial step is moot: the residual is checked below
-        warnings.simplefilter("ignore", RuntimeWarning)
-        x = _newton(fun, x0)
-    if np.max(np.abs(fun(x))) > 1e-9:
-        raise DesignError(f"no damped {what} shaper found for damping ratio {zeta:g}; "
-                          "allowed: a lighter damping ratio, or a ZV/ZVD-family shaper (exact for any damping)")
+            raise DesignError(f"no damped {what} shaper found for damping ratio {target:g} (solved up to "
+                              f"{done:.4g}); allowed: a lighter damping ratio, or a ZV/ZVD-family shaper "
+                              "(exact for any damping)")
     return x
 
 
@@ -180,18 +163,15 @@ def damped_hump_shaper(n_humps: int, omega_rad_s: float, damping_ratio: float,
 
     x = pack(A0, t0, zeros, humps)
     target = float(damping_ratio)
-    steps = max(1, math.ceil(target / _MAX_ZETA_STEP))
-    for k in range(1, steps + 1):
-        zeta = target * k / steps
 
-        def fun(x, zeta=zeta):
-            A, t, wz, wh = unpack(x)
-            z0, _ = _z_and_slope(A, t, wz, zeta)
-            zh, dzh = _z_and_slope(A, t, wh, zeta)
-            return np.concatenate([[A.sum() - 1.0], z0.real, z0.imag, np.abs(zh) - tolerance,
-                                   np.real(np.conj(zh) * dzh)])
+    def residual(x, zeta):
+        A, t, wz, wh = unpack(x)
+        z0, _ = _z_and_slope(A, t, wz, zeta)
+        zh, dzh = _z_and_slope(A, t, wh, zeta)
+        return np.concatenate([[A.sum() - 1.0], z0.real, z0.imag, np.abs(zh) - tolerance,
+                               np.real(np.conj(zh) * dzh)])
 
-        x = _solve(fun, x, f"{n_humps}-hump EI", zeta)
+    x = _continue(residual, x, target, f"{n_humps}-hump EI")
     A, t, _, _ = unpack(x)
     if np.any(A <= 0.0) or np.any(np.diff(t) <= 0.0):
         raise DesignError(f"damped {n_humps}-hump EI for damping ratio {target:g} has non-positive amplitudes "
@@ -204,15 +184,12 @@ def damped_umzv_times(omega_rad_s: float, damping_ratio: float) -> np.ndarray:
     A = np.array([1.0, -1.0, 1.0])
     x = np.array([math.pi / 3.0, 2.0 * math.pi / 3.0])
     target = float(damping_ratio)
-    steps = max(1, math.ceil(target / _MAX_ZETA_STEP))
-    for k in range(1, steps + 1):
-        zeta = target * k / steps
 
-        def fun(x, zeta=zeta):
-            z, _ = _z_and_slope(A, np.concatenate([[0.0], x]), np.array([1.0]), zeta)
-            return np.array([z[0].real, z[0].imag])
+    def residual(x, zeta):
+        z, _ = _z_and_slope(A, np.concatenate([[0.0], x]), np.array([1.0]), zeta)
+        return np.array([z[0].real, z[0].imag])
 
-        x = _solve(fun, x, "UM-ZV", zeta)
+    x = _continue(residual, x, target, "UM-ZV")
     if not (0.0 < x[0] < x[1]):
         raise DesignError(f"damped UM-ZV for damping ratio {target:g} has unordered times; "
                           "allowed: a lighter damping ratio")

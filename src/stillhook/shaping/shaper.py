@@ -33,6 +33,7 @@ import numpy as np
 from stillhook.checks import check_quantity, finite_number
 from stillhook.errors import DesignError
 from stillhook.shaping.design_cache import DESIGN_CACHE
+from stillhook.solvers import bounded_minimum, brent_root
 
 __all__ = [
     "Shaper", "TIME_MERGE_S", "check_cycle", "check_damping", "check_frequency",
@@ -297,46 +298,6 @@ def sensitivity_curve(shaper: Shaper, design_freq_hz: float, damping_ratio: floa
     return r, shaper.vibration_at_hz(r * f0, damping_ratio)
 
 
-def _root_between(f, a: float, b: float, xtol: float) -> float:
-    """A root of ``f`` in [a, b], where f(a) and f(b) differ in sign, to within ``xtol`` (bisection: each step
-    halves the bracket that keeps the sign change); the bracket's end where f <= 0 (never past the root)."""
-    fa = f(a)
-    while b - a > xtol:
-        m = 0.5 * (a + b)
-        fm = f(m)
-        if (fm > 0.0) == (fa > 0.0):
-            a, fa = m, fm
-        else:
-            b = m
-    return a if fa <= 0.0 else b
-
-
-#: Golden-section ratio (sqrt(5) - 1) / 2.
-_GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
-
-
-def _argmax_between(f, a: float, b: float, xtol: float) -> tuple[float, float]:
-    """(x, f(x)) at the largest value of ``f`` on [a, b] (one peak there) to within ``xtol``: golden-section search.
-
-    Notes
-    -----
-    Each step keeps the larger of two interior values and shrinks the bracket by the golden ratio, reusing one
-    value: Kiefer, "Sequential minimax search for a maximum", Proc. AMS 4(3):502-506, 1953 (from memory).
-    """
-    c, d = b - _GOLDEN * (b - a), a + _GOLDEN * (b - a)
-    fc, fd = f(c), f(d)
-    while b - a > xtol:
-        if fc >= fd:
-            b, d, fd = d, c, fc
-            c = b - _GOLDEN * (b - a)
-            fc = f(c)
-        else:
-            a, c, fc = c, d, fd
-            d = a + _GOLDEN * (b - a)
-            fd = f(d)
-    return (c, fc) if fc >= fd else (d, fd)
-
-
 def _grid_step_hz(shaper: Shaper) -> float:
     # |dV/dw| <= sum A_i t_i <= t_n: a step of 0.01 / t_n rad/s moves V by at most 0.01.
     return 0.01 / (2.0 * np.pi * max(shaper.duration_s, 1e-6))
@@ -370,7 +331,7 @@ def insensitive_band_hz(shaper: Shaper, design_freq_hz: float, tolerance: float,
             if out.size:
                 k = int(out[0])
                 a, b = (inside if k == 0 else float(span[k - 1])), float(span[k])
-                edge = _root_between(excess, min(a, b), max(a, b), 1e-12 * f0)
+                edge = brent_root(excess, min(a, b), max(a, b), xtol=1e-12 * f0)
             elif span.size < 2048:  # walked down to 0 Hz without leaving the tolerance
                 edge = 0.0
             elif span[-1] > _UNBOUNDED_RATIO * f0:  # heavy damping: V decays at high frequency
@@ -396,8 +357,8 @@ def insensitivity_width(shaper: Shaper, design_freq_hz: float, tolerance: float 
 def worst_vibration(shaper: Shaper, f_lo_hz: float, f_hi_hz: float, damping_ratio: float = 0.0) -> tuple[float, float]:
     """Largest V over [f_lo_hz, f_hi_hz]: returns (V_max, frequency in Hz where it occurs).
 
-    Sampled so that V moves < 0.01 between samples, then refined by a golden-section search
-    between the neighbours of the largest sample.
+    Sampled so that V moves < 0.01 between samples, then refined by Brent's bounded search
+    (:func:`stillhook.solvers.bounded_minimum` of -V) between the neighbours of the largest sample.
     """
     lo, hi = check_frequency(f_lo_hz), check_frequency(f_hi_hz)
     if lo > hi:
@@ -416,7 +377,7 @@ def _worst_sampled(shaper: Shaper, lo: float, hi: float, zeta: float) -> tuple[f
     best_v, best_f = float(v[k]), float(f[k])
     if n > 1 and hi > lo:
         a, b = float(f[max(k - 1, 0)]), float(f[min(k + 1, n - 1)])
-        f_max, v_max = _argmax_between(lambda x: float(shaper.vibration_at_hz(x, zeta)), a, b, 1e-10 * hi)
-        if v_max > best_v:
-            best_v, best_f = v_max, f_max
+        x, neg_v = bounded_minimum(lambda x: -float(shaper.vibration_at_hz(x, zeta)), a, b, xatol=1e-10 * hi)
+        if -neg_v > best_v:
+            best_v, best_f = -neg_v, x
     return best_v, best_f
