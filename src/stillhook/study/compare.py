@@ -60,6 +60,7 @@ from stillhook.shaping.envelope_design import envelope_shaper_for_project
 from stillhook.sim.command_filter import UNFILTERED, CommandFilter
 from stillhook.sim.dynamics import simulate_batch, time_within_s
 from stillhook.sim.profiles import project_move
+from stillhook.study.move_check import cancelled_sway_note, swings_cancel
 
 __all__ = [
     "Candidate", "Comparison", "DEFINITIONS", "METHODS", "Row", "candidates", "compare_project", "time_at_rest_s",
@@ -250,6 +251,9 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
     results = simulate_batch(rig, [y for _, y, _, _ in commands], T, hoist_speed_m_s=hoist, rtol=rtol)
     runs = [(*cmd, res) for cmd, res in zip(commands, results, strict=True)]
     base = runs[0][4]
+    if swings_cancel(base.residual_payload_sway_m, base.peak_payload_offset_m):
+        notes.append("unshaped: " + cancelled_sway_note(base.residual_payload_sway_m, base.peak_payload_offset_m)
+                     + "; compare the residuals in mm")
     unshaped_end = base.command_end_s
     threshold = tol * base.residual_payload_sway_m
     rows = []
