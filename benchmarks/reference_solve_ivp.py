@@ -12,24 +12,13 @@ import math
 import numpy as np
 from scipy.integrate import solve_ivp
 
+from stillhook.checks import finite_number
 from stillhook.errors import ConfigError
 from stillhook.model.rig import Rig
 from stillhook.sim.dynamics import SETTLE_WINDOW_S, SimResult
+from stillhook.sim.motion import as_samples
 
 _MAX_OUTPUT_STEP_S = 0.01
-
-
-def finite_number(name, value, **_):
-    return float(value)
-
-
-def _as_samples(name: str, values) -> np.ndarray:
-    a = np.asarray(values, dtype=float)
-    if a.ndim != 1 or len(a) < 1:
-        raise ConfigError(f"{name} must be a 1-D sequence of samples, got shape {a.shape}")
-    if not np.all(np.isfinite(a)):
-        raise ConfigError(f"{name} contains NaN or infinite samples; allowed: finite numbers")
-    return a
 
 
 class _Motion:
@@ -92,11 +81,11 @@ def simulate_solve_ivp(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=Non
     """
     Ts = finite_number("cycle_s", cycle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
     settle_s = finite_number("settle_s", settle_s, allowed="a finite number > 0", lo=0.0, lo_ok=False)
-    v_cmd = _as_samples("speed_m_s", speed_m_s)
+    v_cmd = as_samples("speed_m_s", speed_m_s)
     if rope_length_m is not None and hoist_speed_m_s is not None:
         raise ConfigError("give rope_length_m or hoist_speed_m_s, not both")
     if rope_length_m is not None:
-        L_s = _as_samples("rope_length_m", rope_length_m)
+        L_s = as_samples("rope_length_m", rope_length_m)
         if np.any(L_s <= 0):
             raise ConfigError("rope_length_m samples must all be > 0")
         if abs(L_s[0] - rig.rope_length_m) > 1e-9:
@@ -105,7 +94,7 @@ def simulate_solve_ivp(rig: Rig, speed_m_s, cycle_s: float, *, rope_length_m=Non
         u_cmd = np.concatenate([np.diff(L_s) / Ts, [0.0]])
         hoist_stepwise = True
     else:
-        u_cmd = np.zeros(1) if hoist_speed_m_s is None else _as_samples("hoist_speed_m_s", hoist_speed_m_s)
+        u_cmd = np.zeros(1) if hoist_speed_m_s is None else as_samples("hoist_speed_m_s", hoist_speed_m_s)
         hoist_stepwise = False
 
     def last_active(a: np.ndarray) -> int:

@@ -8,7 +8,7 @@ from concurrent.futures import ProcessPoolExecutor
 
 from stillhook.errors import ConfigError
 
-__all__ = ["POOL_CONTEXT", "WORKERS_VARIABLE", "process_pool", "start_in_background", "worker_count"]
+__all__ = ["POOL_CONTEXT", "WORKERS_VARIABLE", "map_tasks", "process_pool", "start_in_background", "worker_count"]
 
 #: Environment variable that caps the worker processes of every parallel step.
 WORKERS_VARIABLE = "STILLHOOK_WORKERS"
@@ -57,6 +57,21 @@ def _workers_from_environment() -> int | None:
 def process_pool(n_workers: int) -> ProcessPoolExecutor:
     """A pool of ``n_workers`` processes started the one way every parallel step starts them (:data:`POOL_CONTEXT`)."""
     return ProcessPoolExecutor(n_workers, mp_context=POOL_CONTEXT)
+
+
+def map_tasks(fn, tasks, n_workers: int):
+    """``fn(*task)`` for every task, yielded in task order: in a pool of ``n_workers`` processes, or here when 1.
+
+    ``fn`` must be a module-level function. The results are the same either way; consume them all (the
+    pool closes when the generator does).
+    """
+    tasks = list(tasks)
+    if n_workers > 1:
+        with process_pool(n_workers) as pool:
+            yield from pool.map(fn, *zip(*tasks, strict=True))
+    else:
+        for task in tasks:
+            yield fn(*task)
 
 
 def start_in_background(fn, *args, **kwargs):

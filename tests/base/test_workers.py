@@ -7,7 +7,7 @@ import os
 import pytest
 
 from stillhook.errors import ConfigError
-from stillhook.workers import WORKERS_VARIABLE, process_pool, start_in_background, worker_count
+from stillhook.workers import WORKERS_VARIABLE, map_tasks, process_pool, start_in_background, worker_count
 
 
 def test_the_callers_choice_wins_and_never_exceeds_the_tasks(monkeypatch):
@@ -51,3 +51,10 @@ def test_a_background_process_returns_the_result_or_raises_its_exception():
     assert one() == 2.0
     with pytest.raises(ZeroDivisionError):
         two()
+
+
+def test_mapped_tasks_come_back_in_order_in_a_pool_and_here():
+    tasks = [(float(k), 4.0) for k in range(7)]
+    here = list(map_tasks(divide, tasks, 1))
+    assert here == [k / 4.0 for k in range(7)]
+    assert list(map_tasks(divide, tasks, 2)) == here

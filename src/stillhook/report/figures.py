@@ -21,7 +21,7 @@ from stillhook.errors import ConfigError
 from stillhook.report.commissioning_figures import sway_fit_figure
 from stillhook.report.feedback_figures import closed_loop_response_figure, damping_map_figure
 from stillhook.report.figure_data import DESIGN_COLORS
-from stillhook.workers import process_pool, worker_count
+from stillhook.workers import map_tasks, worker_count
 
 __all__ = [
     "FORMATS", "PNG_DPI", "RC", "figure_bytes", "figure_files", "frequency_map_figure", "render",
@@ -233,9 +233,7 @@ def figure_files(figures: dict, formats=FORMATS, *, n_workers: int | None = None
     n_workers : int >= 1, optional
         Processes drawing figures (default: one per core, never more than figures; 1 draws here).
     """
-    n = worker_count(len(figures), n_workers)
-    if n == 1:
-        return {f"{name}.{fmt}": data for name in sorted(figures)
-                for fmt, data in render_formats(figures[name], formats).items()}
-    with process_pool(n) as pool:
-        return submit_figures(pool, figures, formats)()
+    names = sorted(figures)
+    drawn = map_tasks(render_formats, [(figures[k], tuple(formats)) for k in names],
+                      worker_count(len(names), n_workers))
+    return {f"{name}.{fmt}": data for name, by_fmt in zip(names, drawn, strict=True) for fmt, data in by_fmt.items()}

@@ -30,7 +30,6 @@ and the row spacing are derived here; the design margin is common practice, no s
 
 from __future__ import annotations
 
-import contextlib
 import json
 import math
 from collections.abc import Callable
@@ -49,7 +48,7 @@ from stillhook.shaping.design_store import load_or_make, load_stored
 from stillhook.shaping.residual_map import mode_shares, residual_ratio
 from stillhook.shaping.shaper import Shaper, worst_vibration
 from stillhook.sim.drive_rate import check_below_half_rate
-from stillhook.workers import process_pool, worker_count
+from stillhook.workers import map_tasks, worker_count
 
 __all__ = [
     "CHECK_GRID", "DESIGN_MARGIN", "Design", "POOL_MIN_SECONDS", "ROW_MIN_EDGE_RATIO", "ROW_OVERLAP",
@@ -410,17 +409,11 @@ def design_schedule(project, whole: Shaper, *, progress: Callable[[int, int], No
     n_workers = schedule_workers(len(spans), whole, workers)
     args = [(env, method, span, tol, tol_d, cycle, whole, tuple(covers_hz)) for span in spans]
     shapers, treated = [], []
-    with contextlib.ExitStack() as stack:
-        if n_workers > 1:
-            pool = stack.enter_context(process_pool(n_workers))
-            results = pool.map(_row_shaper, *zip(*args, strict=True))
-        else:
-            results = (_row_shaper(*a) for a in args)
-        for s, high in results:
-            shapers.append(s)
-            treated.append(high)
-            if progress is not None:
-                progress(1 + len(shapers), total)
+    for s, high in map_tasks(_row_shaper, args, n_workers):
+        shapers.append(s)
+        treated.append(high)
+        if progress is not None:
+            progress(1 + len(shapers), total)
     n_high = sum(treated)
     reason = (f"{rows.size} rows spaced evenly in log(rope + rigging length) (about {100 * ROW_SPREAD:g} % of "
               f"low-mode frequency per row); high mode treated in {n_high} of {rows.size} rows")

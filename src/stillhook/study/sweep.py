@@ -21,7 +21,6 @@ described in :mod:`stillhook.study.modal_sweep`.
 
 from __future__ import annotations
 
-import contextlib
 import dataclasses
 from collections.abc import Callable
 
@@ -37,7 +36,7 @@ from stillhook.sim.profiles import project_move
 from stillhook.study.modal_sweep import AccelRuns, end_amplitudes, peak_after_end
 from stillhook.study.rig_samples import RigSamples, random_points, random_rigs
 from stillhook.study.sweep_result import SpotCheck, SweepDesign, SweepResult
-from stillhook.workers import process_pool, worker_count
+from stillhook.workers import map_tasks, worker_count
 
 __all__ = ["CHUNK_RIGS", "DESIGN_KEYS", "MAX_RIGS", "RigSamples", "SpotCheck", "SweepDesign", "SweepResult",
            "grid_points", "project_designs", "random_points", "random_rigs", "residuals", "spot_checks",
@@ -165,16 +164,10 @@ def residuals(rigs, designs, cycle_s: float, *, envelope=None, settle_s: float =
     n_workers = worker_count(len(chunks), workers)
     args = ((rigs.take(sl), env, runs, settle_s, [r[sl] for r in rows]) for sl in chunks)
     out = np.empty((len(designs), R))
-    with contextlib.ExitStack() as stack:
-        if n_workers > 1:
-            pool = stack.enter_context(process_pool(n_workers))
-            parts = pool.map(_chunk_residuals, *zip(*args, strict=True))
-        else:
-            parts = (_chunk_residuals(*a) for a in args)
-        for sl, part in zip(chunks, parts, strict=True):
-            out[:, sl] = part
-            if progress is not None:
-                progress(sl.stop, R)
+    for sl, part in zip(chunks, map_tasks(_chunk_residuals, args, n_workers), strict=True):
+        out[:, sl] = part
+        if progress is not None:
+            progress(sl.stop, R)
     return {d.key: out[i] for i, d in enumerate(designs)}
 
 
