@@ -120,12 +120,12 @@ class DemoResult:
     commissioning: object = None
 
 
-def _draw_early_figures(demo) -> dict:
+def _draw_early_figures(demo) -> tuple[dict, object]:
     """Start drawing the figures known right after commissioning (segment fits, frequency maps).
 
     They are drawn in one background process while the study runs here (:func:`run_demo`); with one worker
-    (``$STILLHOOK_WORKERS=1``) they are drawn here when asked for. Returns ``{"data": {name: figure data},
-    "files": callable giving {"<name>.<fmt>": bytes}}``.
+    (``$STILLHOOK_WORKERS=1``) they are drawn here when asked for. Returns ``({name: figure data}, files)``,
+    ``files()`` giving ``{"<name>.<fmt>": bytes}``.
     """
     data = {**segment_figures(demo), "frequency_maps": frequency_map_data(demo.project)}
     if worker_count(2) > 1:
@@ -133,7 +133,7 @@ def _draw_early_figures(demo) -> dict:
     else:
         def files():
             return figure_files(data, n_workers=1)
-    return {"data": data, "files": files}
+    return data, files
 
 
 def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = True, progress=None,
@@ -168,7 +168,7 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     t0 = time.perf_counter()
     demo = commission_demo()
     t_commission = time.perf_counter() - t0
-    early = _draw_early_figures(demo)
+    early_data, early_files = _draw_early_figures(demo)
     study = build_study(demo.project, grid=grid or REPORT_GRID, progress=progress)
     finish_study(study, demo)
     study.timings_s["commissioning"] = t_commission
@@ -177,12 +177,12 @@ def run_demo(out_dir, *, grid: tuple[int, int] | None = None, selftest: bool = T
     if progress is not None:
         progress("self-test and figures")
     t0 = time.perf_counter()
-    late = {name: data for name, data in study.figures.items() if early["data"].get(name) != data}
+    late = {name: data for name, data in study.figures.items() if early_data.get(name) != data}
     with process_pool(worker_count(len(late))) as pool:
         drawn = submit_figures(pool, late)  # the workers draw while this process builds the self-test
         study.selftest = run_selftest(study.firmware_files, study.emit_plan.prefix) if selftest else SELFTEST_SKIPPED
         study.timings_s["self-test"] = time.perf_counter() - t0
-        figures = dict(sorted({**early["files"](), **drawn()}.items()))
+        figures = dict(sorted({**early_files(), **drawn()}.items()))
     if progress is not None:
         progress("report")
     t0 = time.perf_counter()
