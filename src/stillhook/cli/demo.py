@@ -57,7 +57,8 @@ def _summary(result, out: str) -> list[str]:
         ranked = rank_designs([(r.method, r.label, r.residual_pct / 100.0, r.added_delay_s) for r in c.rows
                                if r.method != "unshaped"], c.tolerance)
         lines.append(f"             {ranking_sentence(ranked, c.tolerance)}")
-        lines.extend(f"             {n}" for n in c.notes if n.startswith("unshaped: "))
+        if c.cancelled_sway is not None:
+            lines.append(f"             {c.cancelled_sway}")
     if st.sweep is not None:
         tol = 100 * st.sweep.tolerance
         cells = [f"{s['label']}: {100 * s['share_within_tolerance']:.1f} % (worst {100 * s['worst_ratio']:.3g} %)"

@@ -47,7 +47,7 @@ memory); this table measures the trade on the project's own rig.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -139,6 +139,15 @@ class Comparison:
             if r.method == method:
                 return r
         raise KeyError(method)
+
+    @property
+    def cancelled_sway(self) -> str | None:
+        """The note saying the unshaped move cancels its own sway (:func:`swings_cancel`), else None."""
+        base = self.row("unshaped")
+        if not swings_cancel(base.residual_sway_m, base.peak_sway_m):
+            return None
+        return ("unshaped: " + cancelled_sway_note(base.residual_sway_m, base.peak_sway_m)
+                + "; compare the residuals in mm")
 
     def as_dict(self) -> dict:
         return {
@@ -251,9 +260,6 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
     results = simulate_batch(rig, [y for _, y, _, _ in commands], T, hoist_speed_m_s=hoist, rtol=rtol)
     runs = [(*cmd, res) for cmd, res in zip(commands, results, strict=True)]
     base = runs[0][4]
-    if swings_cancel(base.residual_payload_sway_m, base.peak_payload_offset_m):
-        notes.append("unshaped: " + cancelled_sway_note(base.residual_payload_sway_m, base.peak_payload_offset_m)
-                     + "; compare the residuals in mm")
     unshaped_end = base.command_end_s
     threshold = tol * base.residual_payload_sway_m
     rows = []
@@ -271,7 +277,7 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
             peak_speed_m_s=float(np.max(np.abs(y))),
             peak_accel_m_s2=float(np.max(np.abs(np.diff(y)))) / T,
         ))
-    return Comparison(
+    comparison = Comparison(
         rows=tuple(rows), project=project.name, distance_m=distance, cycle_s=T, tolerance=tol,
         rest_threshold_m=threshold, unshaped_end_s=unshaped_end, settle_window_s=base.settle_s,
         hoist=hoist is not None,
@@ -281,3 +287,5 @@ def compare_project(project, *, distance_m: float | None = None, include_hoist: 
              "modes_hz": [m.frequency_hz for m in rig.modes()]},
         notes=tuple(notes),
     )
+    cancelled = comparison.cancelled_sway
+    return comparison if cancelled is None else replace(comparison, notes=(*notes, cancelled))
