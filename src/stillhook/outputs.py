@@ -32,18 +32,16 @@ MARKER = ".stillhook-output.json"
 
 def to_json(obj) -> str:
     """Deterministic JSON text (indent 2, no NaN, trailing newline)."""
-    try:
-        return json.dumps(obj, indent=2, allow_nan=False) + "\n"
-    except ValueError as exc:  # NaN or inf in results is a bug upstream, say so plainly
-        raise ValueError(f"result is not finite and cannot be written as JSON: {exc}") from None
+    return _nested(obj, "") + "\n"
 
 
 def _nested(value, prefix: str) -> str:
     """to_json's text of ``value`` as it appears nested ``prefix`` deep (every line after the first indented)."""
     try:
-        return json.dumps(value, indent=2, allow_nan=False).replace("\n", "\n" + prefix)
-    except ValueError as exc:
+        text = json.dumps(value, indent=2, allow_nan=False)
+    except ValueError as exc:  # NaN or inf in results is a bug upstream, say so plainly
         raise ValueError(f"result is not finite and cannot be written as JSON: {exc}") from None
+    return text.replace("\n", "\n" + prefix) if prefix else text
 
 
 def write_json(obj: dict, stream, *, streamed: dict | None = None) -> None:
